@@ -1,0 +1,57 @@
+// One error class for everything siftpack reports to a user: a stable code, an exit code, the cause.
+
+/** Stable error codes; the table-driven test in tests/errors.test.ts lists them all. */
+export const ERROR_CODES = {
+  SP_PIPELINE_FILE: "the pipeline file cannot be read or parsed",
+  SP_PIPELINE_KEY: "the pipeline file has invalid keys or values",
+  SP_USAGE: "the command line is wrong",
+  SP_INPUT_MISSING: "an input file or glob matched nothing or cannot be read",
+  SP_INPUT_FORMAT: "an input file cannot be parsed at all",
+  SP_BAD_FRACTION: "too many input records were quarantined",
+  SP_OUTPUT: "the output directory cannot be written",
+  SP_VERIFY: "an output file does not match the manifest",
+  SP_MANIFEST: "a manifest is missing or unreadable",
+  SP_TOKENIZER: "the tokenizer cannot be loaded or used",
+} as const;
+
+export type ErrorCode = keyof typeof ERROR_CODES;
+
+/** Exit codes: 1 the work failed (data or I/O), 2 the command line or pipeline file is wrong. */
+const USER_ERRORS: ReadonlySet<ErrorCode> = new Set(["SP_PIPELINE_FILE", "SP_PIPELINE_KEY", "SP_USAGE"]);
+
+export class SiftpackError extends Error {
+  readonly code: ErrorCode;
+  readonly exitCode: 1 | 2;
+  /** Extra lines printed under the message (e.g. every pipeline-file problem). */
+  readonly details: string[];
+
+  constructor(code: ErrorCode, message: string, options: { cause?: unknown; details?: string[] } = {}) {
+    super(message, options.cause === undefined ? undefined : { cause: options.cause });
+    this.name = "SiftpackError";
+    this.code = code;
+    this.exitCode = USER_ERRORS.has(code) ? 2 : 1;
+    this.details = options.details ?? [];
+  }
+}
+
+/** A one-line description of a system error such as ENOENT, for messages. */
+export function describeSystemError(err: unknown): string {
+  const e = err as NodeJS.ErrnoException;
+  switch (e?.code) {
+    case "ENOENT":
+      return "no such file or directory";
+    case "EACCES":
+    case "EPERM":
+      return "permission denied";
+    case "ENOSPC":
+      return "no space left on device";
+    case "EISDIR":
+      return "is a directory";
+    case "ENOTDIR":
+      return "a path component is not a directory";
+    case "EROFS":
+      return "read-only file system";
+    default:
+      return e?.message ?? String(err);
+  }
+}

@@ -1,0 +1,40 @@
+// The record that flows through every stage, and the context stages report to.
+
+/** Where an input record came from: the file and its 1-based line (jsonl, text) or data row (csv, tsv, json array element). */
+export interface Origin {
+  file: string;
+  line: number;
+}
+
+/** One document. `id` is unique within its source; `seq` is the global input order (0-based). */
+export interface DocRecord {
+  id: string;
+  source: string;
+  text: string;
+  meta: Record<string, unknown>;
+  origin: Origin;
+  seq: number;
+  /** Set by the split stage. */
+  split?: string;
+  /** Set by stages that group near-duplicates. */
+  cluster?: string;
+  /** Set by the tokenize stage. */
+  tokens?: Uint32Array;
+}
+
+/** What a stage may do besides passing records on: account for the ones it drops. */
+export interface StageContext {
+  /** The pipeline seed; every random choice derives from it. */
+  seed: number;
+  /** Record that `record` leaves the pipeline here, with a short stable reason and optional detail. */
+  drop(record: DocRecord, reason: string, detail?: Record<string, unknown>): void;
+  /** Structured log (pino). */
+  log: Logger;
+}
+
+export interface Logger {
+  info(obj: object | string, msg?: string): void;
+  warn(obj: object | string, msg?: string): void;
+  error(obj: object | string, msg?: string): void;
+  debug(obj: object | string, msg?: string): void;
+}
