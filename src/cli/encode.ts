@@ -1,0 +1,51 @@
+// `siftpack encode --encoding NAME [FILE]`: prints the token ids of a text as JSON (stdin when no FILE).
+import { readFile } from "node:fs/promises";
+import type { CommandModule } from "yargs";
+import { ENCODINGS, loadEncoding } from "../tokenizer/index.js";
+import { SiftpackError, describeSystemError } from "../errors.js";
+
+interface Args {
+  file?: string;
+  encoding: string;
+  decode?: boolean;
+}
+
+async function readInput(file: string | undefined): Promise<string> {
+  if (file === undefined || file === "-") {
+    const chunks: Buffer[] = [];
+    for await (const c of process.stdin) chunks.push(c as Buffer);
+    return Buffer.concat(chunks).toString("utf8");
+  }
+  try {
+    return await readFile(file, "utf8");
+  } catch (err) {
+    throw new SiftpackError("SP_INPUT_MISSING", `${file}: ${describeSystemError(err)}`, { cause: err });
+  }
+}
+
+export const encodeCommand: CommandModule<object, Args> = {
+  command: "encode [file]",
+  describe: "print the token ids of a text as JSON (reads stdin without FILE)",
+  builder: (y) =>
+    y
+      .positional("file", { type: "string" })
+      .option("encoding", { type: "string", default: "gpt2", choices: ENCODINGS as string[] })
+      .option("decode", { type: "boolean", describe: "read a JSON list of ids and print the text" }),
+  handler: async (args) => {
+    const enc = await loadEncoding(args.encoding);
+    const input = await readInput(args.file);
+    if (args.decode) {
+      let ids: unknown;
+      try {
+        ids = JSON.parse(input);
+      } catch {
+        ids = undefined;
+      }
+      if (!Array.isArray(ids) || !ids.every((x) => Number.isInteger(x) && x >= 0 && x < enc.vocabSize))
+        throw new SiftpackError("SP_USAGE", `--decode expects a JSON list of token ids below ${enc.vocabSize}`);
+      process.stdout.write(enc.decode(ids as number[]));
+      return;
+    }
+    process.stdout.write(JSON.stringify(Array.from(enc.encode(input))) + "\n");
+  },
+};

@@ -1,0 +1,48 @@
+// The command line: parses arguments with yargs, runs one command, maps errors to exit codes.
+import yargs from "yargs";
+import { SiftpackError } from "../errors.js";
+import { runCommand } from "./run.js";
+import { planCommand } from "./plan.js";
+import { verifyCommand } from "./verify.js";
+import { statsCommand } from "./stats.js";
+import { encodeCommand } from "./encode.js";
+import { toolVersion } from "../output/manifest.js";
+
+/** Prints an error for a person: one line, then its details; a stack only with SIFTPACK_DEBUG=1. */
+export function reportError(err: unknown): number {
+  if (err instanceof SiftpackError) {
+    process.stderr.write(`siftpack: error: ${err.message}\n`);
+    for (const d of err.details) process.stderr.write(`  ${d}\n`);
+    if (process.env.SIFTPACK_DEBUG && err.cause) process.stderr.write(`${(err.cause as Error).stack ?? err.cause}\n`);
+    return err.exitCode;
+  }
+  const e = err as Error;
+  process.stderr.write(`siftpack: internal error: ${e?.message ?? String(err)} (set SIFTPACK_DEBUG=1 for the stack; please report it)\n`);
+  if (process.env.SIFTPACK_DEBUG) process.stderr.write(`${e?.stack}\n`);
+  return 1;
+}
+
+export async function main(argv: string[]): Promise<number> {
+  try {
+    await yargs(argv)
+      .scriptName("siftpack")
+      .usage("$0 <command> [options]\n\nTurns raw text exports into packed token blocks for next-token training.")
+      .command(runCommand)
+      .command(planCommand)
+      .command(verifyCommand)
+      .command(statsCommand)
+      .command(encodeCommand)
+      .demandCommand(1, "name a command")
+      .strict()
+      .version(toolVersion())
+      .help()
+      .exitProcess(false)
+      .fail((msg, err) => {
+        throw err ?? new SiftpackError("SP_USAGE", msg);
+      })
+      .parseAsync();
+    return 0;
+  } catch (err) {
+    return reportError(err);
+  }
+}

@@ -1,0 +1,17 @@
+// Files appear under their final name only when complete: write to a temporary name, then rename.
+import { open, rename, unlink } from "node:fs/promises";
+
+export async function writeFileAtomic(path: string, parts: readonly Uint8Array[]): Promise<void> {
+  const tmp = `${path}.tmp`;
+  const fh = await open(tmp, "w");
+  try {
+    for (const p of parts) await fh.write(p);
+    await fh.sync();
+  } catch (err) {
+    await fh.close().catch(() => {});
+    await unlink(tmp).catch(() => {});
+    throw err;
+  }
+  await fh.close();
+  await rename(tmp, path);
+}

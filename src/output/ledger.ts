@@ -1,0 +1,111 @@
+// The ledger: one gzipped JSON line per input record with its fate; the manifest's counts are its sums.
+import { createWriteStream, type WriteStream } from "node:fs";
+import { rename } from "node:fs/promises";
+import { once } from "node:events";
+import { createGzip, type Gzip } from "node:zlib";
+import type { DocRecord } from "../types.js";
+import type { QuarantineEntry } from "../sources/source.js";
+
+export interface FateCounts {
+  read: number;
+  kept: number;
+  dropped: number;
+  quarantined: number;
+}
+
+export interface LedgerCounts extends FateCounts {
+  /** Drop reasons and "quarantined" → count. */
+  by_reason: Record<string, number>;
+  by_source: Record<string, FateCounts>;
+  by_split: Record<string, number>;
+}
+
+const zero = (): FateCounts => ({ read: 0, kept: 0, dropped: 0, quarantined: 0 });
+
+/** Streams JSON lines into a file through gzip (fixed level, mtime 0, so equal content gives equal bytes). */
+class JsonLinesFile {
+  private readonly out: WriteStream;
+  private readonly head: Gzip | WriteStream;
+  private readonly path: string;
+  private failure: Error | undefined;
+
+  constructor(path: string, gzip: boolean) {
+    this.path = path;
+    this.out = createWriteStream(`${path}.tmp`);
+    this.out.on("error", (e) => (this.failure ??= e));
+    if (gzip) {
+      const gz = createGzip({ level: 6 });
+      gz.on("error", (e) => (this.failure ??= e));
+      gz.pipe(this.out);
+      this.head = gz;
+    } else this.head = this.out;
+  }
+
+  /** Resolves at once unless the stream buffer is full, so callers can await every line cheaply. */
+  async write(obj: object): Promise<void> {
+    if (this.failure) throw this.failure;
+    if (!this.head.write(JSON.stringify(obj) + "\n")) await once(this.head, "drain");
+  }
+
+  async close(): Promise<void> {
+    this.head.end();
+    await once(this.out, "close");
+    if (this.failure) throw this.failure;
+    await rename(`${this.path}.tmp`, this.path);
+  }
+}
+
+export class Ledger {
+  readonly counts: LedgerCounts = { ...zero(), by_reason: {}, by_source: {}, by_split: {} };
+  private readonly ledger: JsonLinesFile;
+  private readonly quarantine: JsonLinesFile;
+  private readonly queue: object[] = [];
+
+  constructor(ledgerPath: string, quarantinePath: string) {
+    this.ledger = new JsonLinesFile(ledgerPath, true);
+    this.quarantine = new JsonLinesFile(quarantinePath, false);
+  }
+
+  private source(name: string): FateCounts {
+    return (this.counts.by_source[name] ??= zero());
+  }
+
+  private tally(source: string, fate: keyof FateCounts, reason?: string): void {
+    const s = this.source(source);
+    s.read++;
+    s[fate]++;
+    this.counts.read++;
+    this.counts[fate]++;
+    if (reason) this.counts.by_reason[reason] = (this.counts.by_reason[reason] ?? 0) + 1;
+  }
+
+  /** Stages call this synchronously; lines are queued and written by `flush`. */
+  dropped(r: DocRecord, reason: string, detail?: Record<string, unknown>): void {
+    this.tally(r.source, "dropped", reason);
+    this.queue.push({ source: r.source, id: r.id, file: r.origin.file, line: r.origin.line, fate: "dropped", reason, ...(detail ? { detail } : {}) });
+  }
+
+  kept(r: DocRecord, extra: Record<string, unknown> = {}): void {
+    this.tally(r.source, "kept");
+    const split = r.split ?? "train";
+    this.counts.by_split[split] = (this.counts.by_split[split] ?? 0) + 1;
+    this.queue.push({ source: r.source, id: r.id, file: r.origin.file, line: r.origin.line, fate: "kept", split, tokens: r.tokens?.length ?? 0, ...extra });
+  }
+
+  async quarantined(e: QuarantineEntry): Promise<void> {
+    this.tally(e.source, "quarantined", "quarantined");
+    this.queue.push({ source: e.source, file: e.file, line: e.line, fate: "quarantined", error: e.error });
+    await this.quarantine.write(e);
+  }
+
+  async flush(): Promise<void> {
+    for (const line of this.queue) await this.ledger.write(line);
+    this.queue.length = 0;
+  }
+
+  async close(): Promise<void> {
+    await this.flush();
+    await this.ledger.close();
+    await this.quarantine.close();
+  }
+}

@@ -1,0 +1,137 @@
+// manifest.json: what was built from what, with counts and a checksum of every output file.
+import { readFile } from "node:fs/promises";
+import { basename, join } from "node:path";
+import { createRequire } from "node:module";
+import { writeFileAtomic } from "./atomic.js";
+import { hashFile, hex64, xxh64String } from "../lib/hash.js";
+import { canonicalJson } from "../lib/canonical-json.js";
+import { SiftpackError, describeSystemError } from "../errors.js";
+import type { Dtype } from "./npy.js";
+import type { SplitStats, WrittenFile } from "./shard-writer.js";
+import type { LedgerCounts } from "./ledger.js";
+import type { LoadedPipeline } from "../pipeline/load.js";
+import type { Encoder } from "../tokenizer/index.js";
+import type { TokenizeOptions } from "../stages/tokenize.js";
+import type { PackOptions } from "../stages/pack.js";
+
+export const FORMAT = "siftpack/1";
+
+export interface Manifest {
+  format: string;
+  tool: { name: string; version: string; dependencies: Record<string, string> };
+  pipeline: { file: string; hash: string; resolved: unknown };
+  seed: number;
+  inputs: { source: string; path: string; size: number; xxh64: string }[];
+  tokenizer: { name: string; vocab_size: number; special_ids: Record<string, number>; eos_id: number; pad_id: number; bos: boolean; eos: boolean };
+  length: number;
+  strategy: string;
+  dtype: Dtype;
+  segments_dtype: Dtype;
+  splits: Record<string, SplitStats>;
+  records: LedgerCounts;
+  files: WrittenFile[];
+  /** XXH64 over the canonical JSON of `files`: one value that changes when any output byte does. */
+  build_hash: string;
+}
+
+const require = createRequire(import.meta.url);
+function versionOf(pkg: string): string {
+  try {
+    return require(`${pkg}/package.json`).version;
+  } catch {
+    return "unknown";
+  }
+}
+
+/** siftpack's own version: package.json two levels up from both src/output and dist/output. */
+export function toolVersion(): string {
+  return require("../../package.json").version;
+}
+
+export interface ManifestInput {
+  pipeline: LoadedPipeline;
+  inputs: Manifest["inputs"];
+  encoder: Encoder;
+  tokenize: TokenizeOptions;
+  pack: PackOptions;
+  tokenDtype: Dtype;
+  segmentDtype: Dtype;
+  splits: Record<string, SplitStats>;
+  counts: LedgerCounts;
+  files: WrittenFile[];
+}
+
+export async function writeManifest(dir: string, m: ManifestInput): Promise<Manifest> {
+  const files = [...m.files];
+  for (const name of ["ledger.jsonl.gz", "quarantine.jsonl"]) files.push({ path: name, ...(await hashFile(join(dir, name))) });
+  files.sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
+  const resolved = { ...m.pipeline.config, output: { shard_blocks: m.pipeline.config.output.shard_blocks } };
+  const manifest: Manifest = {
+    format: FORMAT,
+    tool: {
+      name: "siftpack",
+      version: toolVersion(),
+      // Versions of the packages whose code decides output bytes (rank tables, hashing, gzip is Node's own).
+      dependencies: { "js-tiktoken": versionOf("js-tiktoken"), "xxhash-wasm": versionOf("xxhash-wasm"), node_zlib: process.versions.zlib },
+    },
+    pipeline: { file: basename(m.pipeline.file), hash: m.pipeline.hash, resolved },
+    seed: m.pipeline.config.seed,
+    inputs: m.inputs,
+    tokenizer: {
+      name: m.encoder.name,
+      vocab_size: m.encoder.vocabSize,
+      special_ids: m.encoder.specialTokens,
+      eos_id: m.encoder.eosId,
+      pad_id: m.encoder.eosId,
+      bos: m.tokenize.bos,
+      eos: m.tokenize.eos,
+    },
+    length: m.pack.length,
+    strategy: m.pack.strategy,
+    dtype: m.tokenDtype,
+    segments_dtype: m.segmentDtype,
+    splits: m.splits,
+    records: m.counts,
+    files,
+    build_hash: hex64(xxh64String(canonicalJson(files))),
+  };
+  await writeFileAtomic(join(dir, "manifest.json"), [Buffer.from(JSON.stringify(manifest, null, 2) + "\n")]);
+  return manifest;
+}
+
+export async function readManifest(dir: string): Promise<Manifest> {
+  const path = join(dir, "manifest.json");
+  let text: string;
+  try {
+    text = await readFile(path, "utf8");
+  } catch (err) {
+    throw new SiftpackError("SP_MANIFEST", `${path}: cannot read the manifest: ${describeSystemError(err)}`, { cause: err });
+  }
+  let m: Manifest;
+  try {
+    m = JSON.parse(text);
+  } catch (err) {
+    throw new SiftpackError("SP_MANIFEST", `${path}: not valid JSON: ${(err as Error).message}`, { cause: err });
+  }
+  if (m?.format !== FORMAT) throw new SiftpackError("SP_MANIFEST", `${path}: not a siftpack manifest (format is ${JSON.stringify(m?.format)}, expected "${FORMAT}")`);
+  return m;
+}
+
+export interface VerifyProblem {
+  path: string;
+  problem: string;
+}
+
+/** Re-hashes every file listed in the manifest; returns the mismatches (empty when all is well). */
+export async function verifyOutput(dir: string, m: Manifest): Promise<VerifyProblem[]> {
+  const problems: VerifyProblem[] = [];
+  for (const f of m.files) {
+    const got = await hashFile(join(dir, f.path)).catch((err) => ({ error: describeSystemError(err) }));
+    if ("error" in got) problems.push({ path: f.path, problem: `cannot read: ${got.error}` });
+    else if (got.size !== f.size) problems.push({ path: f.path, problem: `size ${got.size}, manifest says ${f.size}` });
+    else if (got.xxh64 !== f.xxh64) problems.push({ path: f.path, problem: `xxh64 ${got.xxh64}, manifest says ${f.xxh64}` });
+  }
+  const buildHash = hex64(xxh64String(canonicalJson(m.files)));
+  if (buildHash !== m.build_hash) problems.push({ path: "manifest.json", problem: `build_hash ${buildHash} does not match the file list (manifest says ${m.build_hash})` });
+  return problems;
+}

@@ -1,0 +1,180 @@
+// Collects packed rows of one split into shards and writes them as .npy files with their statistics.
+import { mkdir } from "node:fs/promises";
+import { join } from "node:path";
+import { dtypeBytes, encodeValues, npyHeader, type Dtype } from "./npy.js";
+import { writeFileAtomic } from "./atomic.js";
+import { hex64, loadHasher } from "../lib/hash.js";
+
+export type Emit = "positions" | "target_mask" | "cu_seqlens";
+
+export interface WrittenFile {
+  path: string; // relative to the output dir, forward slashes
+  size: number;
+  xxh64: string;
+}
+
+export interface ShardEntry {
+  blocks: number;
+  tokens: string;
+  segments: string;
+  positions?: string;
+  target_mask?: string;
+  cu_seqlens?: string;
+  cu_offsets?: string;
+}
+
+export interface SplitStats {
+  documents: number;
+  blocks: number;
+  tokens: number;
+  target_tokens: number;
+  padding_tokens: number;
+  cut_documents: number;
+  shards: ShardEntry[];
+}
+
+export interface ShardWriterOptions {
+  outDir: string;
+  split: string;
+  length: number;
+  shardBlocks: number;
+  tokenDtype: Dtype;
+  segmentDtype: Dtype;
+  emit: readonly Emit[];
+}
+
+export class ShardWriter {
+  private readonly o: ShardWriterOptions;
+  private tokens: Uint32Array;
+  private segments: Uint32Array;
+  private rows = 0;
+  private readonly full: { tokens: Uint32Array; segments: Uint32Array; rows: number }[] = [];
+  private shardIndex = 0;
+  readonly files: WrittenFile[] = [];
+  readonly stats: SplitStats = { documents: 0, blocks: 0, tokens: 0, target_tokens: 0, padding_tokens: 0, cut_documents: 0, shards: [] };
+
+  constructor(o: ShardWriterOptions) {
+    this.o = o;
+    this.tokens = new Uint32Array(o.shardBlocks * o.length);
+    this.segments = new Uint32Array(o.shardBlocks * o.length);
+  }
+
+  /** Copies one row in (sync, called by the packer); full shards wait for `writePending`. */
+  addRow(tokens: Uint32Array, segments: Uint32Array): void {
+    const L = this.o.length;
+    this.tokens.set(tokens, this.rows * L);
+    this.segments.set(segments, this.rows * L);
+    this.rows++;
+    this.countRow(segments);
+    if (this.rows === this.o.shardBlocks) {
+      this.full.push({ tokens: this.tokens, segments: this.segments, rows: this.rows });
+      this.tokens = new Uint32Array(this.o.shardBlocks * L);
+      this.segments = new Uint32Array(this.o.shardBlocks * L);
+      this.rows = 0;
+    }
+  }
+
+  private countRow(seg: Uint32Array): void {
+    const s = this.stats;
+    s.blocks++;
+    for (let i = 0; i < seg.length; i++) {
+      const v = seg[i];
+      if (v === 0) s.padding_tokens++;
+      else {
+        s.tokens++;
+        if (i > 0 && seg[i - 1] === v) s.target_tokens++;
+      }
+    }
+  }
+
+  get pending(): number {
+    return this.full.length;
+  }
+
+  async writePending(): Promise<void> {
+    while (this.full.length > 0) {
+      const shard = this.full.shift()!;
+      await this.writeShard(shard.tokens, shard.segments, shard.rows);
+    }
+  }
+
+  /** Writes what is left (a final, shorter shard). */
+  async finish(): Promise<void> {
+    await this.writePending();
+    if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows);
+    this.rows = 0;
+  }
+
+  private async writeShard(tokens: Uint32Array, segments: Uint32Array, rows: number): Promise<void> {
+    const L = this.o.length;
+    const dir = join(this.o.outDir, this.o.split);
+    await mkdir(dir, { recursive: true });
+    const stem = String(this.shardIndex++).padStart(6, "0");
+    const n = rows * L;
+    const tok = tokens.subarray(0, n);
+    const seg = segments.subarray(0, n);
+    const entry: ShardEntry = {
+      blocks: rows,
+      tokens: await this.writeArray(`${stem}.tokens.npy`, tok, this.o.tokenDtype, [rows, L]),
+      segments: await this.writeArray(`${stem}.segments.npy`, seg, this.o.segmentDtype, [rows, L]),
+    };
+    if (this.o.emit.includes("positions")) entry.positions = await this.writeArray(`${stem}.positions.npy`, positionsOf(seg, L), this.o.segmentDtype, [rows, L]);
+    if (this.o.emit.includes("target_mask")) entry.target_mask = await this.writeArray(`${stem}.target_mask.npy`, targetMaskOf(seg, L), "uint8", [rows, L]);
+    if (this.o.emit.includes("cu_seqlens")) {
+      const { lens, offsets } = cuSeqlensOf(seg, L);
+      entry.cu_seqlens = await this.writeArray(`${stem}.cu_seqlens.npy`, lens, "int32", [lens.length]);
+      entry.cu_offsets = await this.writeArray(`${stem}.cu_offsets.npy`, offsets, "int64", [offsets.length]);
+    }
+    this.stats.shards.push(entry);
+  }
+
+  private async writeArray(name: string, values: Uint32Array, dtype: Dtype, shape: number[]): Promise<string> {
+    const rel = `${this.o.split}/${name}`;
+    const header = npyHeader(dtype, shape);
+    const body = encodeValues(values, dtype);
+    if (body.byteLength !== values.length * dtypeBytes(dtype)) throw new Error("npy body size mismatch");
+    await writeFileAtomic(join(this.o.outDir, rel), [header, body]);
+    const { create64 } = await loadHasher();
+    const h = create64(0n).update(header).update(body).digest();
+    this.files.push({ path: rel, size: header.length + body.byteLength, xxh64: hex64(h) });
+    return rel;
+  }
+}
+
+/** Position of each token within its document (restarting at 0 at each segment start); 0 on padding. */
+export function positionsOf(seg: Uint32Array, L: number): Uint32Array {
+  const out = new Uint32Array(seg.length);
+  for (let i = 0; i < seg.length; i++) {
+    const start = i % L === 0 || seg[i] !== seg[i - 1];
+    out[i] = seg[i] === 0 ? 0 : start ? 0 : out[i - 1] + 1;
+  }
+  return out;
+}
+
+/** 1 where the token's prediction counts in the loss: same non-zero segment as the token before it in the row. */
+export function targetMaskOf(seg: Uint32Array, L: number): Uint32Array {
+  const out = new Uint32Array(seg.length);
+  for (let i = 0; i < seg.length; i++) out[i] = seg[i] !== 0 && i % L !== 0 && seg[i - 1] === seg[i] ? 1 : 0;
+  return out;
+}
+
+/**
+ * Per row, the cumulative document lengths [0, l1, l1+l2, …] (padding excluded), flattened; row r's
+ * entries are lens[offsets[r] .. offsets[r+1]).
+ */
+export function cuSeqlensOf(seg: Uint32Array, L: number): { lens: Uint32Array; offsets: Uint32Array } {
+  const lens: number[] = [];
+  const offsets: number[] = [0];
+  for (let r = 0; r * L < seg.length; r++) {
+    lens.push(0);
+    let acc = 0;
+    for (let i = r * L; i < (r + 1) * L; i++) {
+      if (seg[i] === 0) continue;
+      acc++;
+      const end = i + 1 === (r + 1) * L || seg[i + 1] !== seg[i];
+      if (end) lens.push(acc);
+    }
+    offsets.push(lens.length);
+  }
+  return { lens: Uint32Array.from(lens), offsets: Uint32Array.from(offsets) };
+}

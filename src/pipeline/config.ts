@@ -1,0 +1,92 @@
+// The schema of the pipeline file (DESIGN.md §2) and the resolved configuration type.
+import { field, list, num, obj, str, literal, type Infer, type Issue, type Path, type Schema } from "./schema.js";
+import { STAGES } from "../stages/index.js";
+import { closest } from "../lib/did-you-mean.js";
+
+export const FORMATS = ["jsonl", "json", "csv", "tsv", "text"] as const;
+
+const sourceSchema = obj({
+  name: field(str({ nonEmpty: true }), { required: true }),
+  files: field(str({ nonEmpty: true }), { required: true }),
+  format: field(str({ oneOf: FORMATS }), { required: true }),
+  text: field(str({ nonEmpty: true }), { default: "text" }),
+  id: field(str({ nonEmpty: true })),
+  meta: field(list(str({ nonEmpty: true })), { default: [] }),
+  weight: field(num({ min: 0, max: 100 }), { default: 1 }),
+});
+
+export interface StageEntry {
+  name: string;
+  options: any;
+}
+
+/** One list item `- name: {options}`: a mapping with exactly one key naming a stage. */
+const stageEntry: Schema<StageEntry> = {
+  describe: "a stage: a mapping with one key, the stage name",
+  check(value, path, issues) {
+    const names = Object.keys(STAGES);
+    if (typeof value === "string") value = { [value]: {} };
+    if (value === null || typeof value !== "object" || Array.isArray(value) || Object.keys(value).length !== 1) {
+      issues.push({ path, message: `expected a mapping with one key, the stage name (${names.join(", ")})` });
+      return { name: "", options: {} };
+    }
+    const [name, opts] = Object.entries(value as Record<string, unknown>)[0];
+    const def = STAGES[name];
+    if (!def) {
+      const near = closest(name, names);
+      issues.push({ path: [...path, name], atKey: true, message: `unknown stage "${name}"${near ? ` (did you mean "${near}"?)` : ""}; stages: ${names.join(", ")}` });
+      return { name, options: {} };
+    }
+    return { name, options: def.options.check(opts, [...path, name], issues) };
+  },
+};
+
+export const pipelineSchema = obj({
+  siftpack: field(literal(1), { required: true }),
+  seed: field(num({ integer: true, min: 0, max: 2 ** 32 - 1 }), { default: 0 }),
+  max_bad_fraction: field(num({ min: 0, max: 1 }), { default: 0.01 }),
+  sources: field(list(sourceSchema, { nonEmpty: true }), { required: true }),
+  stages: field(list(stageEntry, { nonEmpty: true }), { required: true }),
+  output: field(
+    obj({
+      dir: field(str({ nonEmpty: true }), { required: true }),
+      shard_blocks: field(num({ integer: true, min: 1 }), { default: 4096 }),
+    }),
+    { required: true },
+  ),
+});
+
+export type PipelineConfig = Infer<typeof pipelineSchema>;
+export type SourceConfig = PipelineConfig["sources"][number];
+
+/** Rules that span several keys: stage order, unique source names, split field carried as meta. */
+export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
+  const names = new Set<string>();
+  c.sources.forEach((s, i) => {
+    if (names.has(s.name)) issues.push({ path: ["sources", i, "name"], message: `source name "${s.name}" is used twice` });
+    names.add(s.name);
+  });
+  const at = (n: string) => c.stages.findIndex((s) => s.name === n);
+  const tok = at("tokenize");
+  const pack = at("pack");
+  const stagesPath: Path = ["stages"];
+  if (tok < 0) issues.push({ path: stagesPath, message: `the stages need a "tokenize" stage` });
+  if (pack < 0) issues.push({ path: stagesPath, message: `the stages need a "pack" stage, last` });
+  else if (pack !== c.stages.length - 1) issues.push({ path: ["stages", pack, "pack"], atKey: true, message: `"pack" must be the last stage` });
+  if (tok >= 0 && pack >= 0 && tok > pack) issues.push({ path: ["stages", tok, "tokenize"], atKey: true, message: `"tokenize" must come before "pack"` });
+  for (const n of ["tokenize", "pack", "split"]) {
+    if (c.stages.filter((s) => s.name === n).length > 1) issues.push({ path: stagesPath, message: `"${n}" may appear only once` });
+  }
+  const splitAt = at("split");
+  if (splitAt >= 0) {
+    const by: string | undefined = c.stages[splitAt].options.by;
+    if (by !== undefined && !c.sources.some((s) => s.meta.includes(by))) {
+      const near = closest(by, c.sources.flatMap((s) => s.meta));
+      issues.push({
+        path: ["stages", splitAt, "split", "by"],
+        message: `split.by is "${by}" but no source lists it in meta${near ? ` (did you mean "${near}"?)` : ""}; records without it are split by id`,
+      });
+    }
+    if (tok >= 0 && splitAt > tok) issues.push({ path: ["stages", splitAt, "split"], atKey: true, message: `"split" must come before "tokenize"` });
+  }
+}

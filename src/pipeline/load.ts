@@ -1,0 +1,100 @@
+// Reads a pipeline file (YAML, or JSON), validates it and reports every problem with file:line:col.
+import { readFile } from "node:fs/promises";
+import { dirname, isAbsolute, resolve, relative } from "node:path";
+import { isMap, isSeq, LineCounter, parseDocument, type Document, type Node } from "yaml";
+import { SiftpackError, describeSystemError } from "../errors.js";
+import { checkPipelineRules, pipelineSchema, type PipelineConfig } from "./config.js";
+import type { Issue, Path } from "./schema.js";
+import { canonicalJson } from "../lib/canonical-json.js";
+import { hex64, loadHasher, xxh64String } from "../lib/hash.js";
+
+export interface LoadedPipeline {
+  /** The path as given. */
+  file: string;
+  /** Directory that relative paths in the file are resolved against. */
+  baseDir: string;
+  config: PipelineConfig;
+  /** Absolute output directory. */
+  outDir: string;
+  /** XXH64 of the canonical JSON of the resolved configuration. */
+  hash: string;
+}
+
+/** `stages[2].dedup.threshold` */
+export function formatPath(path: Path): string {
+  let s = "";
+  for (const p of path) s += typeof p === "number" ? `[${p}]` : s ? `.${p}` : p;
+  return s || "(top level)";
+}
+
+/** Finds the node at `path`, walking back to the closest existing ancestor; `atKey` points at the key itself. */
+function locate(doc: Document, path: Path, atKey: boolean): Node | undefined {
+  let node: unknown = doc.contents;
+  let best = node as Node | undefined;
+  for (let i = 0; i < path.length; i++) {
+    const step = path[i];
+    if (isMap(node)) {
+      const pair = node.items.find((p) => (p.key as any)?.value === step || p.key === step);
+      if (!pair) return best;
+      if (atKey && i === path.length - 1) return pair.key as Node;
+      node = pair.value;
+    } else if (isSeq(node) && typeof step === "number") {
+      node = node.items[step];
+    } else return best;
+    if (node && (node as Node).range) best = node as Node;
+  }
+  return best;
+}
+
+export function positionOf(doc: Document, lc: LineCounter, issue: Issue): string {
+  const node = locate(doc, issue.path, issue.atKey ?? false);
+  const offset = node?.range?.[0] ?? 0;
+  const { line, col } = lc.linePos(offset);
+  return `${line}:${col}`;
+}
+
+/** Parses and validates pipeline text; throws SiftpackError listing every problem. */
+export function parsePipeline(text: string, file: string): PipelineConfig {
+  const lc = new LineCounter();
+  const doc = parseDocument(text, { lineCounter: lc, prettyErrors: false, uniqueKeys: true });
+  if (doc.errors.length > 0) {
+    const lines = doc.errors.map((e) => {
+      const { line, col } = lc.linePos(e.pos[0]);
+      return `${file}:${line}:${col}: ${e.message.split("\n")[0]}`;
+    });
+    throw new SiftpackError("SP_PIPELINE_FILE", `${file}: not valid YAML or JSON`, { details: lines });
+  }
+  const value = doc.toJS({ maxAliasCount: 100 });
+  const issues: Issue[] = [];
+  const config = pipelineSchema.check(value, [], issues);
+  if (issues.length === 0) checkPipelineRules(config, issues);
+  if (issues.length > 0) {
+    const lines = issues.map((i) => `${file}:${positionOf(doc, lc, i)}: ${formatPath(i.path)}: ${i.message}`);
+    throw new SiftpackError("SP_PIPELINE_KEY", `${file}: ${issues.length} problem${issues.length > 1 ? "s" : ""} in the pipeline file`, {
+      details: lines,
+    });
+  }
+  return config;
+}
+
+export async function loadPipeline(file: string, overrides: { outDir?: string } = {}): Promise<LoadedPipeline> {
+  let text: string;
+  try {
+    text = await readFile(file, "utf8");
+  } catch (err) {
+    throw new SiftpackError("SP_PIPELINE_FILE", `${file}: cannot read the pipeline file: ${describeSystemError(err)}`, { cause: err });
+  }
+  const config = parsePipeline(text, file);
+  const baseDir = dirname(resolve(file));
+  const outDir = overrides.outDir ? resolve(overrides.outDir) : isAbsolute(config.output.dir) ? config.output.dir : resolve(baseDir, config.output.dir);
+  await loadHasher();
+  // The output directory is not part of the hash: the same data built elsewhere is the same build.
+  const hashed = { ...config, output: { ...config.output, dir: undefined } };
+  return { file, baseDir, config, outDir, hash: hex64(xxh64String(canonicalJson(hashed))) };
+}
+
+/** A path for messages and manifests: relative to the current directory when inside it. */
+export function displayPath(p: string): string {
+  const r = relative(process.cwd(), p);
+  return r && !r.startsWith("..") && !isAbsolute(r) ? r : p;
+}

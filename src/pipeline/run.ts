@@ -1,0 +1,183 @@
+// Runs a loaded pipeline: sources → stages → packer per split → shards, ledger and manifest.
+import { join } from "node:path";
+import { SiftpackError, describeSystemError } from "../errors.js";
+import { STAGES } from "../stages/index.js";
+import { ConcatPacker, type PackOptions } from "../stages/pack.js";
+import type { TokenizeOptions } from "../stages/tokenize.js";
+import { listFiles, readSource } from "../sources/source.js";
+import { Ledger } from "../output/ledger.js";
+import { ShardWriter, type Emit } from "../output/shard-writer.js";
+import { prepareStaging, publishStaging } from "../output/output-dir.js";
+import { writeManifest, type Manifest } from "../output/manifest.js";
+import { hashFile, loadHasher, unitHash } from "../lib/hash.js";
+import { loadEncoding } from "../tokenizer/index.js";
+import type { DocRecord, Logger, StageContext } from "../types.js";
+import type { LoadedPipeline } from "./load.js";
+
+export interface RunOptions {
+  log: Logger;
+  /** Called about twice a second with running counts (for a progress line). */
+  onProgress?: (p: { read: number; kept: number; dropped: number; quarantined: number }) => void;
+}
+
+export interface RunResult {
+  outDir: string;
+  manifest: Manifest;
+}
+
+interface Copies {
+  copies: number;
+}
+
+/** How many times a record of a source with `weight` enters training: floor(w), plus one more with probability frac(w). */
+export function copiesFor(weight: number, key: string, seed: number): number {
+  const whole = Math.floor(weight);
+  const frac = weight - whole;
+  return whole + (frac > 0 && unitHash(key, seed ^ 0x5eed) < frac ? 1 : 0);
+}
+
+export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<RunResult> {
+  const { config } = p;
+  const log = opts.log;
+  await loadHasher();
+
+  // Inputs first: a missing file is reported before anything is written.
+  const inputs: Manifest["inputs"] = [];
+  for (const spec of config.sources) {
+    for (const file of await listFiles(spec, p.baseDir)) {
+      const abs = join(p.baseDir, file);
+      const { size, xxh64 } = await hashFile(abs).catch((err) => {
+        throw new SiftpackError("SP_INPUT_MISSING", `source "${spec.name}": cannot read ${file}: ${describeSystemError(err)}`, { cause: err });
+      });
+      inputs.push({ source: spec.name, path: file, size, xxh64 });
+    }
+  }
+
+  const staging = await prepareStaging(p.outDir);
+  const ledger = new Ledger(join(staging, "ledger.jsonl.gz"), join(staging, "quarantine.jsonl"));
+
+  const tokOpts = config.stages.find((s) => s.name === "tokenize")!.options as TokenizeOptions;
+  const packOpts = config.stages.find((s) => s.name === "pack")!.options as PackOptions;
+  const encoder = await loadEncoding(tokOpts.encoding);
+  const tokenDtype = encoder.vocabSize <= 65536 ? "uint16" : "uint32";
+  const segmentDtype = packOpts.length <= 65536 ? "uint16" : "uint32";
+
+  const ctx: StageContext = {
+    seed: config.seed,
+    log,
+    drop: (r, reason, detail) => ledger.dropped(r, reason, detail),
+  };
+
+  // Sources, in file order; mixture weights decide how many copies of a record train sees.
+  const copies = new WeakMap<DocRecord, Copies>();
+  let seq = 0;
+  let lastProgress = 0;
+  const progress = () => {
+    const now = Date.now();
+    if (opts.onProgress && now - lastProgress > 500) {
+      lastProgress = now;
+      const { read, kept, dropped, quarantined } = ledger.counts;
+      opts.onProgress({ read, kept, dropped, quarantined });
+    }
+  };
+  async function* records(): AsyncGenerator<DocRecord> {
+    for (const spec of config.sources) {
+      for await (const item of readSource(spec, p.baseDir)) {
+        await ledger.flush();
+        progress();
+        if (item.kind === "bad") {
+          await ledger.quarantined(item.entry);
+          continue;
+        }
+        const r: DocRecord = { id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: seq++ };
+        const n = spec.weight === 1 ? 1 : copiesFor(spec.weight, `${r.source}\u0000${r.id}`, config.seed);
+        if (n === 0) {
+          ledger.dropped(r, "subsampled", { weight: spec.weight });
+          continue;
+        }
+        if (n !== 1) copies.set(r, { copies: n });
+        yield r;
+      }
+    }
+  }
+
+  let stream: AsyncIterable<DocRecord> = records();
+  for (const entry of config.stages) {
+    if (entry.name === "pack") continue;
+    const stage = await STAGES[entry.name].create(entry.options);
+    stream = stage(stream, ctx);
+  }
+
+  const writers = new Map<string, { writer: ShardWriter; packer: ConcatPacker }>();
+  const writerFor = (split: string) => {
+    let w = writers.get(split);
+    if (!w) {
+      const writer = new ShardWriter({
+        outDir: staging,
+        split,
+        length: packOpts.length,
+        shardBlocks: config.output.shard_blocks,
+        tokenDtype,
+        segmentDtype,
+        emit: packOpts.emit as Emit[],
+      });
+      const packer = new ConcatPacker(packOpts.length, encoder.eosId, (t, s) => writer.addRow(t, s));
+      w = { writer, packer };
+      writers.set(split, w);
+    }
+    return w;
+  };
+
+  try {
+    for await (const r of stream) {
+      const split = r.split ?? "train";
+      // Repetition serves the training mixture only; held-out text is seen once.
+      const n = split === "train" ? (copies.get(r)?.copies ?? 1) : 1;
+      ledger.kept(r, n !== 1 ? { copies: n } : {});
+      const { writer, packer } = writerFor(split);
+      for (let i = 0; i < n; i++) packer.add(r.tokens!);
+      if (writer.pending > 0) await writer.writePending();
+      await ledger.flush();
+      progress();
+    }
+    for (const { writer, packer } of writers.values()) {
+      packer.finish();
+      await writer.finish();
+      writer.stats.documents = packer.documents;
+      writer.stats.cut_documents = packer.cutDocuments;
+    }
+    await ledger.close();
+  } catch (err) {
+    if (err instanceof SiftpackError) throw err;
+    const code = (err as NodeJS.ErrnoException)?.code;
+    if (typeof code === "string" && /^E[A-Z]+$/.test(code))
+      throw new SiftpackError("SP_OUTPUT", `writing ${staging} failed: ${describeSystemError(err)}`, { cause: err });
+    throw err;
+  }
+
+  const c = ledger.counts;
+  if (c.read > 0 && c.quarantined / c.read > config.max_bad_fraction) {
+    throw new SiftpackError(
+      "SP_BAD_FRACTION",
+      `${c.quarantined} of ${c.read} input records (${((100 * c.quarantined) / c.read).toFixed(1)} %) were quarantined, more than max_bad_fraction ${config.max_bad_fraction}; see ${join(staging, "quarantine.jsonl")}`,
+    );
+  }
+
+  const splitOrder = ["train", "val", "test"];
+  const splits = [...writers.keys()].sort((a, b) => splitOrder.indexOf(a) - splitOrder.indexOf(b));
+  const manifest = await writeManifest(staging, {
+    pipeline: p,
+    inputs,
+    encoder,
+    tokenize: tokOpts,
+    pack: packOpts,
+    tokenDtype,
+    segmentDtype,
+    splits: Object.fromEntries(splits.map((s) => [s, writers.get(s)!.writer.stats])),
+    counts: c,
+    files: splits.flatMap((s) => writers.get(s)!.writer.files),
+  });
+  await publishStaging(staging, p.outDir);
+  log.info({ outDir: p.outDir, records: c.read, kept: c.kept }, "build complete");
+  return { outDir: p.outDir, manifest };
+}

@@ -1,0 +1,54 @@
+// normalize: Unicode form, line endings, trailing spaces, control and zero-width characters, blank-line runs.
+import { defineStage } from "./stage.js";
+import { bool, field, num, obj, str, type Infer } from "../pipeline/schema.js";
+
+export const FORMS = ["NFC", "NFKC", "NFD", "NFKD", "none"] as const;
+
+export const normalizeOptions = obj({
+  form: field(str({ oneOf: FORMS }), { default: "NFKC" }),
+  newlines: field(bool(), { default: true }),
+  trailing_spaces: field(bool(), { default: true }),
+  control_chars: field(bool(), { default: true }),
+  zero_width: field(bool(), { default: true }),
+  max_blank_lines: field(num({ integer: true, min: 0 }), { default: 1 }),
+  trim: field(bool(), { default: true }),
+});
+export type NormalizeOptions = Infer<typeof normalizeOptions>;
+
+// C0/C1 controls except tab and newline (which carry layout), plus DEL.
+const CONTROL = /[\u0000-\u0008\u000B\u000C\u000E-\u001F\u007F-\u009F]/g;
+// Zero-width and invisible formatting characters that change bytes but not what a reader sees:
+// ZWSP, ZWNJ, ZWJ, word joiner, BOM/ZWNBSP, soft hyphen. (ZWJ inside emoji sequences is lost too;
+// common practice for training text, where such sequences are rare.)
+const ZERO_WIDTH = /[\u200B\u200C\u200D\u2060\uFEFF\u00AD]/g;
+const TRAILING = /[ \t\u00A0\u3000]+$/gm;
+
+/** Applies the normalization to one text; exported for tests and library users. */
+export function normalizeText(text: string, o: NormalizeOptions): string {
+  let t = text;
+  if (o.newlines) t = t.replace(/\r\n?|[\u2028\u2029\u0085]/g, "\n");
+  if (o.control_chars) t = t.replace(CONTROL, "");
+  if (o.zero_width) t = t.replace(ZERO_WIDTH, "");
+  if (o.form !== "none") t = t.normalize(o.form);
+  if (o.trailing_spaces) t = t.replace(TRAILING, "");
+  if (o.newlines) {
+    const keep = "\n".repeat(o.max_blank_lines + 1);
+    t = t.replace(new RegExp(`\\n{${o.max_blank_lines + 2},}`, "g"), keep);
+  }
+  if (o.trim) t = t.trim();
+  return t;
+}
+
+export default defineStage({
+  name: "normalize",
+  summary: "Unicode normalization and whitespace/control-character clean-up",
+  options: normalizeOptions,
+  create(o) {
+    return async function* normalize(input) {
+      for await (const r of input) {
+        r.text = normalizeText(r.text, o);
+        yield r;
+      }
+    };
+  },
+});

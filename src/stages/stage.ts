@@ -1,0 +1,22 @@
+// The contract every stage file fulfils: an option schema and a function from records to records.
+import type { Schema } from "../pipeline/schema.js";
+import type { DocRecord, StageContext } from "../types.js";
+
+/** A running stage: async iterable of records in, async iterable of records out. */
+export type Stage = (input: AsyncIterable<DocRecord>, ctx: StageContext) => AsyncIterable<DocRecord>;
+
+export interface StageDefinition<O = any> {
+  /** The key used in the pipeline file (`- normalize: {…}`). */
+  name: string;
+  /** One-line summary for `plan`. */
+  summary: string;
+  options: Schema<O>;
+  /** Builds the stage for one run (may load resources, e.g. a tokenizer). */
+  create(options: O): Stage | Promise<Stage>;
+  /** Extra lines for `siftpack plan` (derived settings). */
+  explain?(options: O): Record<string, unknown>;
+}
+
+export function defineStage<O>(def: StageDefinition<O>): StageDefinition<O> {
+  return def;
+}
