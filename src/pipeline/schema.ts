@@ -32,31 +32,32 @@ function fail(issues: Issue[], path: Path, expected: string, got: unknown): void
   issues.push({ path, message: `expected ${expected}, got ${typeName(got)}` });
 }
 
-export function str(opts: { oneOf?: readonly string[]; nonEmpty?: boolean } = {}): Schema<string> {
+export function str<const T extends string = string>(opts: { oneOf?: readonly T[]; nonEmpty?: boolean } = {}): Schema<T> {
   const describe = opts.oneOf ? `one of ${opts.oneOf.join(" | ")}` : "a string";
   return {
     describe,
     check(value, path, issues) {
       if (typeof value !== "string") {
         fail(issues, path, describe, value);
-        return "";
+        return "" as T;
       }
-      if (opts.oneOf && !opts.oneOf.includes(value)) {
+      if (opts.oneOf && !opts.oneOf.includes(value as T)) {
         const near = closest(value, opts.oneOf);
         issues.push({ path, message: `expected ${describe}, got "${value}"${near ? ` (did you mean "${near}"?)` : ""}` });
       } else if (opts.nonEmpty && value.length === 0) {
         fail(issues, path, "a non-empty string", value);
       }
-      return value;
+      return value as T;
     },
   };
 }
 
 export function num(opts: { min?: number; max?: number; integer?: boolean; exclusiveMin?: boolean } = {}): Schema<number> {
-  const parts = [opts.integer ? "an integer" : "a number"];
-  if (opts.min !== undefined) parts.push(`${opts.exclusiveMin ? ">" : "≥"} ${opts.min}`);
-  if (opts.max !== undefined) parts.push(`≤ ${opts.max}`);
-  const describe = parts.join(" ");
+  const kind = opts.integer ? "an integer" : "a number";
+  const describe =
+    opts.min !== undefined && opts.max !== undefined && !opts.exclusiveMin
+      ? `${kind} from ${opts.min} to ${opts.max}`
+      : [kind, opts.min !== undefined ? `${opts.exclusiveMin ? ">" : "≥"} ${opts.min}` : "", opts.max !== undefined ? `≤ ${opts.max}` : ""].filter(Boolean).join(" ");
   return {
     describe,
     check(value, path, issues) {

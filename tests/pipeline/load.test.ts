@@ -36,7 +36,8 @@ describe("pipeline file", () => {
     const c = parsePipeline(good, "p.yaml");
     expect(c.seed).toBe(3);
     expect(c.max_bad_fraction).toBe(0.01);
-    expect(c.sources[0]).toMatchObject({ id: undefined, weight: 1, meta: ["depot"] });
+    expect(c.sources[0]).toMatchObject({ weight: 1, meta: ["depot"] });
+    expect(c.sources[0].id).toBeUndefined();
     expect(c.stages.map((s) => s.name)).toEqual(["normalize", "split", "tokenize", "pack"]);
     expect(c.stages[0].options).toMatchObject({ form: "NFC", trim: true, max_blank_lines: 1 });
     expect(c.stages[1].options.holdout).toEqual({ val: 0.01, test: 0.01 });
@@ -75,14 +76,14 @@ output:
     expect(p.message).toMatchInlineSnapshot(`"p.yaml: 10 problems in the pipeline file"`);
     expect(p.details).toMatchInlineSnapshot(`
       [
-        "p.yaml:2:7: seed: expected an integer ≥ 0 ≤ 4294967295, got number -4",
+        "p.yaml:2:7: seed: expected an integer from 0 to 4294967295, got number -4",
         "p.yaml:5:5: sources[0].file: unknown key "file" (did you mean "files"?); allowed: name, files, format, text, id, meta, weight",
         "p.yaml:4:5: sources[0].files: missing required key "files" (a string)",
         "p.yaml:6:13: sources[0].format: expected one of jsonl | json | csv | tsv | text, got "jsonlines"",
         "p.yaml:7:11: sources[0].text: expected a string, got number 5",
         "p.yaml:9:5: stages[0].normalise: unknown stage "normalise" (did you mean "normalize"?); stages: normalize, filter, dedup, split, tokenize, pack",
         "p.yaml:10:15: stages[1].filter.min_word: unknown key "min_word" (did you mean "min_words"?); allowed: min_words, max_words, min_chars, max_chars",
-        "p.yaml:12:19: stages[3].pack.length: expected an integer ≥ 2 ≤ 1048576, got "long"",
+        "p.yaml:12:21: stages[3].pack.length: expected an integer from 2 to 1048576, got "long"",
         "p.yaml:14:3: output.dri: unknown key "dri" (did you mean "dir"?); allowed: dir, shard_blocks",
         "p.yaml:14:3: output.dir: missing required key "dir" (a string)",
       ]
@@ -98,7 +99,7 @@ output:
       [
         "p.yaml:12:5: stages[2].pack: "pack" must be the last stage",
         "p.yaml:13:5: stages[3].tokenize: "tokenize" must come before "pack"",
-        "p.yaml:11:19: stages[1].split.by: split.by is "dept" but no source lists it in meta (did you mean "depot"?); records without it are split by id",
+        "p.yaml:11:18: stages[1].split.by: split.by is "dept" but no source lists it in meta (did you mean "depot"?); records without it are split by id",
       ]
     `);
   });

@@ -1,0 +1,75 @@
+// Opens an input file as a lazy stream of byte chunks, gunzipping `.gz`; read failures become InputReadError.
+
+import { open } from "node:fs/promises";
+import { pipeline, type Readable } from "node:stream";
+import { createGunzip } from "node:zlib";
+import { SiftpackError, describeSystemError } from "../errors.js";
+
+/** Compressed formats recognised by extension but not readable yet (node:zlib in Node 20 has no zstd, xz or bzip2). */
+const UNSUPPORTED: Record<string, string> = {
+  ".zst": "zstd",
+  ".xz": "xz",
+  ".bz2": "bzip2",
+};
+
+/** A failure while reading an opened file (disk error, corrupt compressed data). Its message is user-facing. */
+export class InputReadError extends Error {
+  constructor(message: string, options?: { cause?: unknown }) {
+    super(message, options);
+    this.name = "InputReadError";
+  }
+}
+
+export type Compression = "none" | "gzip";
+
+/** Compression implied by the file name; throws SP_INPUT_FORMAT for compressions that cannot be read. */
+export function compressionOf(file: string): Compression {
+  const lower = file.toLowerCase();
+  if (lower.endsWith(".gz")) return "gzip";
+  for (const [ext, name] of Object.entries(UNSUPPORTED)) {
+    if (lower.endsWith(ext)) {
+      throw new SiftpackError(
+        "SP_INPUT_FORMAT",
+        `${file}: ${name}-compressed input (${ext}) is not supported yet; decompress it first or recompress it with gzip`,
+      );
+    }
+  }
+  return "none";
+}
+
+/**
+ * Opens `file` for streaming. The file is opened here (not lazily) so a missing or unreadable
+ * file is a SiftpackError at once rather than a read error halfway through a source.
+ * Destroying the returned stream closes the file descriptor.
+ */
+export async function openInput(file: string): Promise<Readable> {
+  const compression = compressionOf(file);
+  let handle;
+  try {
+    handle = await open(file, "r");
+  } catch (err) {
+    throw new SiftpackError("SP_INPUT_MISSING", `cannot open "${file}": ${describeSystemError(err)}`, { cause: err });
+  }
+  const raw = handle.createReadStream({ highWaterMark: 64 * 1024 });
+  if (compression === "none") return raw;
+  // pipeline() tears down both ends if either fails or the consumer stops early, so the fd never leaks.
+  return pipeline(raw, createGunzip(), () => {});
+}
+
+/** What a failed read means to a user. zlib errors carry Z_* codes; everything else is an OS error. */
+export function describeReadError(err: unknown): string {
+  const code = (err as NodeJS.ErrnoException)?.code;
+  if (typeof code === "string" && code.startsWith("Z_")) return `corrupt gzip data: ${(err as Error).message}`;
+  return `read error: ${describeSystemError(err)}`;
+}
+
+/** Iterates the chunks of an opened input, turning stream errors into InputReadError; closes the input when done or abandoned. */
+export async function* readChunks(input: Readable): AsyncGenerator<Buffer> {
+  try {
+    for await (const chunk of input) yield chunk as Buffer;
+  } catch (err) {
+    throw new InputReadError(describeReadError(err), { cause: err });
+  } finally {
+    input.destroy();
+  }
+}

@@ -1,0 +1,171 @@
+// A configured source: find its files, read them with the format's reader, and map rows to records.
+
+import { access, lstat, stat } from "node:fs/promises";
+import { constants } from "node:fs";
+import path from "node:path";
+import { glob, isDynamicPattern } from "tinyglobby";
+import { SiftpackError, describeSystemError } from "../errors.js";
+import { readerFor, type Format } from "./formats.js";
+import { compressionOf } from "./open.js";
+import { isBad, type Row } from "./row.js";
+import { kindOf } from "./values.js";
+
+export type { Format } from "./formats.js";
+
+export interface SourceSpec {
+  name: string;
+  /** A glob (or plain path), relative to the pipeline's base directory or absolute. */
+  files: string;
+  format: Format;
+  /** The field holding the document text (ignored for format text: the file is the text). */
+  text: string;
+  /** The field holding the record id; default ids are "<name>:<record number>". */
+  id?: string;
+  /** Fields copied into `meta` (a missing one becomes null). */
+  meta: string[];
+  /** Mixture weight; applied by the pipeline, not here. */
+  weight: number;
+}
+
+/** A row that could not become a record; `line` 0 means the whole file. */
+export interface QuarantineEntry {
+  source: string;
+  file: string;
+  line: number;
+  error: string;
+}
+
+export interface SourceItem {
+  kind: "record";
+  id: string;
+  source: string;
+  text: string;
+  meta: Record<string, unknown>;
+  origin: { file: string; line: number };
+}
+
+export interface SourceBad {
+  kind: "bad";
+  entry: QuarantineEntry;
+}
+
+function byteOrder(a: string, b: string): number {
+  return Buffer.compare(Buffer.from(a), Buffer.from(b));
+}
+
+function toPosix(p: string): string {
+  return p.split(path.sep).join("/");
+}
+
+/**
+ * The files of a source as paths relative to `baseDir` with forward slashes, in byte order, so
+ * outputs do not depend on where the checkout is (an absolute glob gives "../" paths, which
+ * path.join(baseDir, file) still resolves). Throws SP_INPUT_MISSING if nothing matches or a
+ * file cannot be read, and SP_INPUT_FORMAT for a compression that cannot be read, all before
+ * any record is read.
+ */
+export async function listFiles(spec: Pick<SourceSpec, "name" | "files">, baseDir: string): Promise<string[]> {
+  let absolute: string[];
+  if (isDynamicPattern(spec.files)) {
+    // expandDirectories off: a pattern naming a directory must not silently read everything below it.
+    absolute = await glob(spec.files, { cwd: baseDir, absolute: true, expandDirectories: false, onlyFiles: true });
+  } else {
+    // A plain path is checked directly, so a directory or a dangling link is reported as such
+    // rather than as "no file matches" (globbing skips both).
+    absolute = [path.resolve(baseDir, spec.files)];
+    const exists = await lstat(absolute[0]).then(
+      () => true,
+      () => false,
+    );
+    if (!exists) absolute = [];
+  }
+  if (absolute.length === 0) {
+    throw new SiftpackError("SP_INPUT_MISSING", `source "${spec.name}": no file matches "${spec.files}"`);
+  }
+  const files = absolute.map((f) => toPosix(path.relative(baseDir, f))).sort(byteOrder);
+  for (const file of files) {
+    const full = path.resolve(baseDir, file);
+    try {
+      const info = await stat(full);
+      if (info.isDirectory()) throw Object.assign(new Error("is a directory"), { code: "EISDIR" });
+      await access(full, constants.R_OK);
+    } catch (err) {
+      throw new SiftpackError("SP_INPUT_MISSING", `source "${spec.name}": cannot read "${file}": ${describeSystemError(err)}`, {
+        cause: err,
+      });
+    }
+    try {
+      compressionOf(file);
+    } catch (err) {
+      throw withSource(spec, err);
+    }
+  }
+  return files;
+}
+
+/** Prefixes a SiftpackError with the source name; other errors pass unchanged. */
+function withSource(spec: Pick<SourceSpec, "name">, err: unknown): unknown {
+  if (!(err instanceof SiftpackError) || err.message.startsWith(`source "`)) return err;
+  return new SiftpackError(err.code, `source "${spec.name}": ${err.message}`, { cause: err, details: err.details });
+}
+
+function hasField(fields: Record<string, unknown>, name: string): boolean {
+  // Own properties only: "constructor" or "toString" must not be found on the prototype.
+  return Object.hasOwn(fields, name) && fields[name] !== undefined;
+}
+
+/** Maps rows to records for one source; holds the record counter and the explicit ids seen. */
+class RecordMapper {
+  private count = 0;
+  private readonly ids = new Set<string>();
+
+  constructor(private readonly spec: SourceSpec) {}
+
+  map(row: Row, file: string): SourceItem | SourceBad {
+    // Every row counts, bad ones too, so a default id does not move when an earlier row breaks or heals.
+    const n = ++this.count;
+    const bad = (error: string): SourceBad => ({ kind: "bad", entry: { source: this.spec.name, file, line: row.line, error } });
+    if (isBad(row)) return bad(row.error);
+    const { spec } = this;
+    // The text reader reports the path it was given (absolute); records carry the portable one.
+    const fields = spec.format === "text" ? { ...row.fields, path: file } : row.fields;
+    const textField = spec.format === "text" ? "text" : spec.text;
+    if (!hasField(fields, textField)) return bad(`field "${textField}" is missing`);
+    const text = fields[textField];
+    if (typeof text !== "string") return bad(`field "${textField}" is not a string (got ${kindOf(text)})`);
+
+    let id = `${spec.name}:${n}`;
+    if (spec.id !== undefined) {
+      const value = hasField(fields, spec.id) ? fields[spec.id] : null;
+      if (value === null) return bad(`id field "${spec.id}" is missing`);
+      if (typeof value === "number" && Number.isFinite(value)) id = String(value);
+      else if (typeof value === "string") id = value;
+      else return bad(`id field "${spec.id}" is not a string or number (got ${kindOf(value)})`);
+      if (id === "") return bad(`id field "${spec.id}" is empty`);
+      if (this.ids.has(id)) return bad(`duplicate id "${id}"`);
+      this.ids.add(id);
+    }
+
+    const meta: Record<string, unknown> = {};
+    for (const name of spec.meta) meta[name] = hasField(fields, name) ? fields[name] : null;
+    return { kind: "record", id, source: spec.name, text, meta, origin: { file, line: row.line } };
+  }
+}
+
+/**
+ * Every row of every file of the source, in file order, as a record or a quarantine entry.
+ * Damage inside a file (bad rows, a corrupt .gz) becomes SourceBad items and reading goes on;
+ * only a file that cannot be opened at all throws (a SiftpackError naming the source).
+ */
+export async function* readSource(spec: SourceSpec, baseDir: string): AsyncGenerator<SourceItem | SourceBad> {
+  const files = await listFiles(spec, baseDir);
+  const read = readerFor(spec.format);
+  const mapper = new RecordMapper(spec);
+  for (const file of files) {
+    try {
+      for await (const row of read(path.resolve(baseDir, file))) yield mapper.map(row, file);
+    } catch (err) {
+      throw withSource(spec, err);
+    }
+  }
+}
