@@ -30,6 +30,10 @@ export interface StageContext {
   drop(record: DocRecord, reason: string, detail?: Record<string, unknown>): void;
   /** Structured log (pino). */
   log: Logger;
+  /** The build directory in progress (a staging directory); a stage may write its own files here. */
+  workDir: string;
+  /** Lists a file the stage wrote under `workDir` (path relative to it) so the manifest checksums it. */
+  addOutputFile(relPath: string): void;
 }
 
 export interface Logger {

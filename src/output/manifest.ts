@@ -59,11 +59,13 @@ export interface ManifestInput {
   splits: Record<string, SplitStats>;
   counts: LedgerCounts;
   files: WrittenFile[];
+  /** Files stages wrote themselves (relative paths), hashed here. */
+  extraFiles?: string[];
 }
 
 export async function writeManifest(dir: string, m: ManifestInput): Promise<Manifest> {
   const files = [...m.files];
-  for (const name of ["ledger.jsonl.gz", "quarantine.jsonl"]) files.push({ path: name, ...(await hashFile(join(dir, name))) });
+  for (const name of ["ledger.jsonl.gz", "quarantine.jsonl", ...(m.extraFiles ?? [])]) files.push({ path: name, ...(await hashFile(join(dir, name))) });
   files.sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
   const resolved = { ...m.pipeline.config, output: { shard_blocks: m.pipeline.config.output.shard_blocks } };
   const manifest: Manifest = {

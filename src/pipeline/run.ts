@@ -2,7 +2,7 @@
 import { join } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { STAGES } from "../stages/index.js";
-import { ConcatPacker, type PackOptions } from "../stages/pack.js";
+import { createPacker, type Packer, type PackOptions } from "../stages/pack.js";
 import type { TokenizeOptions } from "../stages/tokenize.js";
 import { listFiles, readSource } from "../sources/source.js";
 import { Ledger } from "../output/ledger.js";
@@ -62,10 +62,13 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   const tokenDtype = encoder.vocabSize <= 65536 ? "uint16" : "uint32";
   const segmentDtype = packOpts.length <= 65536 ? "uint16" : "uint32";
 
+  const stageFiles: string[] = [];
   const ctx: StageContext = {
     seed: config.seed,
     log,
     drop: (r, reason, detail) => ledger.dropped(r, reason, detail),
+    workDir: staging,
+    addOutputFile: (rel) => stageFiles.push(rel),
   };
 
   // Sources, in file order; mixture weights decide how many copies of a record train sees.
@@ -108,7 +111,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     stream = stage(stream, ctx);
   }
 
-  const writers = new Map<string, { writer: ShardWriter; packer: ConcatPacker }>();
+  const writers = new Map<string, { writer: ShardWriter; packer: Packer }>();
   const writerFor = (split: string) => {
     let w = writers.get(split);
     if (!w) {
@@ -121,7 +124,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
         segmentDtype,
         emit: packOpts.emit as Emit[],
       });
-      const packer = new ConcatPacker(packOpts.length, encoder.eosId, (t, s) => writer.addRow(t, s));
+      const packer = createPacker(packOpts, encoder.eosId, (t, s) => writer.addRow(t, s));
       w = { writer, packer };
       writers.set(split, w);
     }
@@ -176,6 +179,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     splits: Object.fromEntries(splits.map((s) => [s, writers.get(s)!.writer.stats])),
     counts: c,
     files: splits.flatMap((s) => writers.get(s)!.writer.files),
+    extraFiles: stageFiles,
   });
   await publishStaging(staging, p.outDir);
   log.info({ outDir: p.outDir, records: c.read, kept: c.kept }, "build complete");

@@ -12,12 +12,29 @@ export type PackOptions = Infer<typeof packOptions>;
 /** Receives full rows: `tokens` and `segments` are views valid only during the call. */
 export type RowSink = (tokens: Uint32Array, segments: Uint32Array) => void;
 
+/** Turns a split's documents (token arrays) into rows; one packer per split. */
+export interface Packer {
+  add(doc: Uint32Array): void;
+  /** Emits whatever is still buffered (padded). */
+  finish(): void;
+  readonly documents: number;
+  /** Documents split across two or more rows. */
+  readonly cutDocuments: number;
+}
+
+export function createPacker(o: PackOptions, padId: number, sink: RowSink): Packer {
+  switch (o.strategy) {
+    case "concat":
+      return new ConcatPacker(o.length, padId, sink);
+  }
+}
+
 /**
  * `concat`: documents back to back (each already ends in EOS when the tokenize stage adds it),
  * cut every `length` tokens; a document may continue in the next row, where it starts a new
  * segment (1). Only the last row of a split is padded (segment 0, token = pad id).
  */
-export class ConcatPacker {
+export class ConcatPacker implements Packer {
   readonly length: number;
   readonly padId: number;
   private readonly tokens: Uint32Array;

@@ -1,0 +1,45 @@
+// A growable Uint32Array of token ids: the output of Encoder.encodeInto, reusable across documents.
+
+export class TokenBuffer {
+  /** Backing storage; ids live in [0, length). Replaced when it grows, so re-read after pushes. */
+  ids: Uint32Array;
+  length = 0;
+
+  constructor(capacity = 1024) {
+    this.ids = new Uint32Array(Math.max(16, capacity));
+  }
+
+  push(id: number): void {
+    if (this.length === this.ids.length) this.grow(this.length + 1);
+    this.ids[this.length++] = id;
+  }
+
+  pushAll(ids: Uint32Array): void {
+    const end = this.length + ids.length;
+    if (end > this.ids.length) this.grow(end);
+    this.ids.set(ids, this.length);
+    this.length = end;
+  }
+
+  clear(): void {
+    this.length = 0;
+  }
+
+  /** The ids as a view sharing this buffer's memory (invalidated by the next push or clear). */
+  view(): Uint32Array {
+    return this.ids.subarray(0, this.length);
+  }
+
+  /** A copy of the ids that the caller owns. */
+  toArray(): Uint32Array {
+    return this.ids.slice(0, this.length);
+  }
+
+  private grow(min: number): void {
+    let cap = this.ids.length * 2;
+    while (cap < min) cap *= 2;
+    const next = new Uint32Array(cap);
+    next.set(this.ids.subarray(0, this.length));
+    this.ids = next;
+  }
+}
