@@ -26,6 +26,8 @@ export function createPacker(o: PackOptions, padId: number, sink: RowSink): Pack
   switch (o.strategy) {
     case "concat":
       return new ConcatPacker(o.length, padId, sink);
+    default:
+      throw new Error(`unknown packing strategy ${String(o.strategy)}`);
   }
 }
 

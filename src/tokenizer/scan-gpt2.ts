@@ -17,7 +17,7 @@ export function scanGpt2(text: string, i: number, cls: Uint8Array): number {
   let cp = c0 < 0xd800 ? c0 : codePointAt(text, i);
   if (c0 === 32 && i + 1 < n) {
     const next = codePointAt(text, i + 1);
-    if (true) {
+    if (cls[next] !== WS) {
       j = i + 1;
       cp = next;
     }
