@@ -6,11 +6,12 @@
 // minified data or whitespace) use a heap keyed by (rank, position), which picks the same pair at
 // every step but costs O(m log n) instead of O(mn).
 
+import { PieceCache } from "./piece-cache.js";
 import { NO_RANK, type RankTable } from "./ranks.js";
 import type { TokenBuffer } from "./token-buffer.js";
 
-/** Pieces longer than this many bytes are merged with the heap. */
-export const HEAP_THRESHOLD = 96;
+/** Pieces longer than this many bytes are merged with the heap (measured: both cost the same near 64). */
+export const HEAP_THRESHOLD = 64;
 /** Pieces longer than this many UTF-16 units are not cached: they rarely repeat and would pin memory. */
 const MAX_CACHED_PIECE = 256;
 const NONE = 0x7fffffff;
@@ -21,8 +22,7 @@ export type MergeMethod = "auto" | "scan" | "heap";
 
 export class BytePairEncoder {
   private readonly ranks: RankTable;
-  private readonly cacheLimit: number;
-  private readonly cache = new Map<string, number | Uint32Array>();
+  private readonly cache: PieceCache;
   private buf = new Uint8Array(1024);
   // Per-part scratch. Scan: parallel arrays over part index. Heap: indexed by the part's start byte.
   private starts = new Int32Array(1025);
@@ -34,32 +34,22 @@ export class BytePairEncoder {
 
   constructor(ranks: RankTable, cacheLimit = 100_000) {
     this.ranks = ranks;
-    this.cacheLimit = cacheLimit;
+    this.cache = new PieceCache(cacheLimit);
   }
 
   /** Appends the ids of the pre-token text[start..end) to `out`. */
   encodePiece(text: string, start: number, end: number, out: TokenBuffer): void {
     const cacheable = end - start <= MAX_CACHED_PIECE;
-    const key = cacheable ? text.slice(start, end) : "";
-    if (cacheable) {
-      const hit = this.cache.get(key);
-      if (hit !== undefined) {
-        if (typeof hit === "number") out.push(hit);
-        else out.pushAll(hit);
-        return;
-      }
-    }
+    const hash = cacheable ? PieceCache.hash(text, start, end) : 0;
+    if (cacheable && this.cache.emit(text, start, end, hash, out)) return;
     const len = this.utf8(text, start, end);
+    const toks = this.toks;
+    let count = 1;
     const whole = this.ranks.get(this.buf, 0, len);
-    if (whole !== NO_RANK) {
-      out.push(whole);
-      if (cacheable) this.remember(key, whole);
-      return;
-    }
-    const count = len <= HEAP_THRESHOLD ? this.mergeScan(len) : this.mergeHeap(len);
-    const ids = new Uint32Array(this.toks.subarray(0, count));
-    out.pushAll(ids);
-    if (cacheable) this.remember(key, ids);
+    if (whole !== NO_RANK) toks[0] = whole;
+    else count = len <= HEAP_THRESHOLD ? this.mergeScan(len) : this.mergeHeap(len);
+    for (let k = 0; k < count; k++) out.push(toks[k]);
+    if (cacheable) this.cache.add(text, start, end, hash, toks, count);
   }
 
   /** BPE of raw bytes (no whole-piece shortcut, no cache); for tests of the two merge loops. */
@@ -75,11 +65,6 @@ export class BytePairEncoder {
   /** Number of cached pre-tokens (for tests of the bound). */
   get cacheSize(): number {
     return this.cache.size;
-  }
-
-  private remember(key: string, value: number | Uint32Array): void {
-    if (this.cache.size >= this.cacheLimit) this.cache.clear();
-    this.cache.set(key, value);
   }
 
   /** UTF-8 of text[start..end) into this.buf; lone surrogates become U+FFFD, as TextEncoder does. */
@@ -176,7 +161,8 @@ export class BytePairEncoder {
     if (this.links.length < len + 1) {
       this.links = new Int32Array(len + 1);
       this.backs = new Int32Array(len + 1);
-      this.heap = new Float64Array(len);
+      // Up to len - 1 initial pairs plus two pushes per merge (at most len - 1 merges).
+      this.heap = new Float64Array(3 * len);
     }
     const { buf, links: next, backs: prev, pairs: rk, toks: tok, heap } = this;
     const pairRanks = this.ranks.pairRanks;

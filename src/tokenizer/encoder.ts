@@ -6,6 +6,8 @@ import type { Pretokenizer } from "./pretokenize.js";
 import type { RankTable } from "./ranks.js";
 import { TokenBuffer } from "./token-buffer.js";
 
+const SCRATCH_KEEP = 1 << 20; // ids
+
 export interface Encoder {
   /** "gpt2", "r50k_base", "p50k_base", "cl100k_base" or "o200k_base". */
   name: string;
@@ -32,7 +34,7 @@ export class BpeEncoder implements Encoder {
   private readonly pre: Pretokenizer;
   private readonly bpe: BytePairEncoder;
   private readonly specialBytes = new Map<number, Uint8Array>();
-  private readonly scratch = new TokenBuffer(4096);
+  private scratch = new TokenBuffer(4096);
   private readonly utf8Decoder = new TextDecoder("utf-8", { ignoreBOM: true });
 
   constructor(name: string, ranks: RankTable, specialTokens: Record<string, number>, pre: Pretokenizer) {
@@ -57,11 +59,17 @@ export class BpeEncoder implements Encoder {
   encode(text: string): number[] {
     const buf = this.scratch;
     buf.clear();
-    this.encodeInto(text, buf);
-    return Array.from(buf.view());
+    const n = this.encodeInto(text, buf);
+    const ids = buf.ids;
+    const out = new Array<number>(n);
+    for (let k = 0; k < n; k++) out[k] = ids[k];
+    // Encoders live as long as the process; do not keep one huge document's worth of scratch.
+    if (ids.length > SCRATCH_KEEP) this.scratch = new TokenBuffer(4096);
+    return out;
   }
 
   encodeInto(text: string, out: TokenBuffer): number {
+    // Same loops as pretokenize.forEachPiece, inlined so the hot path has no callback per piece.
     const before = out.length;
     const bpe = this.bpe;
     const pre = this.pre;

@@ -43,17 +43,6 @@ export function isLowerish(k: number): boolean {
   return k === LL || k === LM || k === LO || k === MARK;
 }
 
-/** End of the run of code points from i whose class satisfies `test`. */
-export function runEnd(text: string, i: number, cls: Uint8Array, test: (k: number) => boolean): number {
-  const n = text.length;
-  while (i < n) {
-    const cp = codePointAt(text, i);
-    if (!test(cls[cp])) break;
-    i += width(cp);
-  }
-  return i;
-}
-
 /** End of the White_Space run from i (all White_Space characters are single UTF-16 units). */
 export function spaceRunEnd(text: string, i: number, cls: Uint8Array): number {
   const n = text.length;

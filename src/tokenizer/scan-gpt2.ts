@@ -12,15 +12,13 @@ export function scanGpt2(text: string, i: number, cls: Uint8Array): number {
     const e = contractionEnd(text, i, identity);
     if (e >= 0) return e;
   }
-  // The optional leading space of the three run alternatives: taken when a non-space follows.
+  // The optional leading space of the three run alternatives: look past it; if White_Space
+  // follows instead, none of them matches and the space run below starts at i all the same.
   let j = i;
   let cp = c0 < 0xd800 ? c0 : codePointAt(text, i);
   if (c0 === 32 && i + 1 < n) {
-    const next = codePointAt(text, i + 1);
-    if (cls[next] !== WS) {
-      j = i + 1;
-      cp = next;
-    }
+    j = i + 1;
+    cp = codePointAt(text, j);
   }
   const k = cls[cp];
   if (k !== WS) {

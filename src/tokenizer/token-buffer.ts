@@ -21,6 +21,15 @@ export class TokenBuffer {
     this.length = end;
   }
 
+  /** Appends src[start..start+count); a plain loop, since most calls copy one or two ids. */
+  pushFrom(src: Uint32Array, start: number, count: number): void {
+    const end = this.length + count;
+    if (end > this.ids.length) this.grow(end);
+    const ids = this.ids;
+    for (let k = 0; k < count; k++) ids[this.length + k] = src[start + k];
+    this.length = end;
+  }
+
   clear(): void {
     this.length = 0;
   }

@@ -138,3 +138,25 @@ describe("Encoder", () => {
     expect(copy.length).toBe(enc.encode(a).length + n);
   });
 });
+
+describe("TokenBuffer", () => {
+  it("grows past its capacity and copies on toArray", () => {
+    const buf = new TokenBuffer(16);
+    const expected: number[] = [];
+    for (let i = 0; i < 40; i++) {
+      buf.push(i);
+      expected.push(i);
+    }
+    buf.pushAll(Uint32Array.from({ length: 100 }, (_, i) => 1000 + i));
+    for (let i = 0; i < 100; i++) expected.push(1000 + i);
+    buf.pushFrom(Uint32Array.of(7, 8, 9, 10), 1, 2);
+    expected.push(8, 9);
+    expect(buf.length).toBe(expected.length);
+    expect(Array.from(buf.view())).toEqual(expected);
+    const copy = buf.toArray();
+    buf.clear();
+    buf.push(99);
+    expect(copy[0]).toBe(0);
+    expect(Array.from(buf.view())).toEqual([99]);
+  });
+});
