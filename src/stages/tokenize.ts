@@ -1,7 +1,7 @@
 // tokenize: encodes each record's text to token ids with a byte-level BPE encoding, adding BOS/EOS.
 import { defineStage } from "./stage.js";
 import { bool, field, obj, str, type Infer } from "../pipeline/schema.js";
-import { ENCODINGS, loadEncoding, type Encoder } from "../tokenizer/index.js";
+import { ENCODINGS, loadEncoding, TokenBuffer, type Encoder } from "../tokenizer/index.js";
 
 export const tokenizeOptions = obj({
   encoding: field(str({ oneOf: ENCODINGS }), { default: "gpt2" }),
@@ -10,16 +10,16 @@ export const tokenizeOptions = obj({
 });
 export type TokenizeOptions = Infer<typeof tokenizeOptions>;
 
-/** Token ids of one document: [BOS] text [EOS]. The encoding's end-of-text id serves as both markers. */
-export function tokenizeText(enc: Encoder, text: string, o: TokenizeOptions): Uint32Array {
-  const ids = enc.encode(text);
-  const n = ids.length + (o.bos ? 1 : 0) + (o.eos ? 1 : 0);
-  const out = new Uint32Array(n);
-  let k = 0;
-  if (o.bos) out[k++] = enc.eosId;
-  for (let i = 0; i < ids.length; i++) out[k++] = ids[i];
-  if (o.eos) out[k++] = enc.eosId;
-  return out;
+/**
+ * Token ids of one document: [BOS] text [EOS]. The encoding's end-of-text id serves as both
+ * markers. `buf` is scratch space reused across documents; the result is a fresh array.
+ */
+export function tokenizeText(enc: Encoder, text: string, o: TokenizeOptions, buf = new TokenBuffer()): Uint32Array {
+  buf.clear();
+  if (o.bos) buf.push(enc.eosId);
+  enc.encodeInto(text, buf);
+  if (o.eos) buf.push(enc.eosId);
+  return buf.toArray();
 }
 
 export default defineStage({
@@ -28,9 +28,10 @@ export default defineStage({
   options: tokenizeOptions,
   async create(o) {
     const enc = await loadEncoding(o.encoding);
+    const buf = new TokenBuffer(1 << 16);
     return async function* tokenize(input, ctx) {
       for await (const r of input) {
-        r.tokens = tokenizeText(enc, r.text, o);
+        r.tokens = tokenizeText(enc, r.text, o, buf);
         if (r.tokens.length === 0) ctx.drop(r, "no-tokens");
         else yield r;
       }
