@@ -13,14 +13,19 @@ export interface FateCounts {
   quarantined: number;
 }
 
+export interface SourceCounts extends FateCounts {
+  /** Tokens this source put into the splits (repeats by weight included). */
+  tokens: number;
+}
+
 export interface LedgerCounts extends FateCounts {
   /** Drop reasons and "quarantined" → count. */
   by_reason: Record<string, number>;
-  by_source: Record<string, FateCounts>;
+  by_source: Record<string, SourceCounts>;
   by_split: Record<string, number>;
 }
 
-const zero = (): FateCounts => ({ read: 0, kept: 0, dropped: 0, quarantined: 0 });
+const zero = (): SourceCounts => ({ read: 0, kept: 0, dropped: 0, quarantined: 0, tokens: 0 });
 
 /** Streams JSON lines into a file through gzip (fixed level, mtime 0, so equal content gives equal bytes). */
 class JsonLinesFile {
@@ -66,11 +71,11 @@ export class Ledger {
     this.quarantine = new JsonLinesFile(quarantinePath, false);
   }
 
-  private source(name: string): FateCounts {
+  private source(name: string): SourceCounts {
     return (this.counts.by_source[name] ??= zero());
   }
 
-  private tally(source: string, fate: keyof FateCounts, reason?: string): void {
+  private tally(source: string, fate: "kept" | "dropped" | "quarantined", reason?: string): void {
     const s = this.source(source);
     s.read++;
     s[fate]++;
@@ -85,8 +90,9 @@ export class Ledger {
     this.queue.push({ source: r.source, id: r.id, file: r.origin.file, line: r.origin.line, fate: "dropped", reason, ...(detail ? { detail } : {}) });
   }
 
-  kept(r: DocRecord, extra: Record<string, unknown> = {}): void {
+  kept(r: DocRecord, extra: { copies?: number } = {}): void {
     this.tally(r.source, "kept");
+    this.source(r.source).tokens += (r.tokens?.length ?? 0) * (extra.copies ?? 1);
     const split = r.split ?? "train";
     this.counts.by_split[split] = (this.counts.by_split[split] ?? 0) + 1;
     this.queue.push({ source: r.source, id: r.id, file: r.origin.file, line: r.origin.line, fate: "kept", split, tokens: r.tokens?.length ?? 0, ...extra });

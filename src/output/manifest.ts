@@ -32,6 +32,8 @@ export interface Manifest {
   files: WrittenFile[];
   /** XXH64 over the canonical JSON of `files`: one value that changes when any output byte does. */
   build_hash: string;
+  /** Figures added by analyzers (e.g. overlap between splits). */
+  [analysis: string]: unknown;
 }
 
 const require = createRequire(import.meta.url);
@@ -61,6 +63,8 @@ export interface ManifestInput {
   files: WrittenFile[];
   /** Files stages wrote themselves (relative paths), hashed here. */
   extraFiles?: string[];
+  /** Figures from analyzers, merged in under their keys. */
+  analysis?: Record<string, unknown>;
 }
 
 export async function writeManifest(dir: string, m: ManifestInput): Promise<Manifest> {
@@ -94,6 +98,7 @@ export async function writeManifest(dir: string, m: ManifestInput): Promise<Mani
     segments_dtype: m.segmentDtype,
     splits: m.splits,
     records: m.counts,
+    ...(m.analysis ?? {}),
     files,
     build_hash: hex64(xxh64String(canonicalJson(files))),
   };

@@ -9,10 +9,12 @@ import { Ledger } from "../output/ledger.js";
 import { ShardWriter, type Emit } from "../output/shard-writer.js";
 import { prepareStaging, publishStaging } from "../output/output-dir.js";
 import { writeManifest, type Manifest } from "../output/manifest.js";
+import { writeBuildInfo } from "../output/build-info.js";
 import { hashFile, loadHasher, unitHash } from "../lib/hash.js";
 import { loadEncoding } from "../tokenizer/index.js";
 import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { LoadedPipeline } from "./load.js";
+import { ANALYZERS, type Analyzer } from "../analysis/analyzer.js";
 
 export interface RunOptions {
   log: Logger;
@@ -38,6 +40,7 @@ export function copiesFor(weight: number, key: string, seed: number): number {
 
 export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<RunResult> {
   const { config } = p;
+  const startedAt = new Date();
   const log = opts.log;
   await loadHasher();
 
@@ -111,6 +114,12 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     stream = stage(stream, ctx);
   }
 
+  const analyzers: { key: string; analyzer: Analyzer }[] = [];
+  for (const f of ANALYZERS) {
+    const analyzer = await f.create({ config, workDir: staging, log });
+    if (analyzer) analyzers.push({ key: f.key, analyzer });
+  }
+
   const writers = new Map<string, { writer: ShardWriter; packer: Packer }>();
   const writerFor = (split: string) => {
     let w = writers.get(split);
@@ -139,6 +148,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
       ledger.kept(r, n !== 1 ? { copies: n } : {});
       const { writer, packer } = writerFor(split);
       for (let i = 0; i < n; i++) packer.add(r.tokens!);
+      for (const a of analyzers) await a.analyzer.add(r);
       if (writer.pending > 0) await writer.writePending();
       await ledger.flush();
       progress();
@@ -166,6 +176,9 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     );
   }
 
+  const analysis: Record<string, unknown> = {};
+  for (const a of analyzers) analysis[a.key] = await a.analyzer.finish();
+
   const splitOrder = ["train", "val", "test"];
   const splits = [...writers.keys()].sort((a, b) => splitOrder.indexOf(a) - splitOrder.indexOf(b));
   const manifest = await writeManifest(staging, {
@@ -180,7 +193,9 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     counts: c,
     files: splits.flatMap((s) => writers.get(s)!.writer.files),
     extraFiles: stageFiles,
+    analysis,
   });
+  await writeBuildInfo(staging, p, startedAt);
   await publishStaging(staging, p.outDir);
   log.info({ outDir: p.outDir, records: c.read, kept: c.kept }, "build complete");
   return { outDir: p.outDir, manifest };

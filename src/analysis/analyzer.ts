@@ -1,0 +1,26 @@
+// Analyzers see every kept record after packing decisions and add figures to the manifest.
+import type { DocRecord, Logger } from "../types.js";
+import type { PipelineConfig } from "../pipeline/config.js";
+
+export interface AnalyzerContext {
+  config: PipelineConfig;
+  /** The build directory in progress. */
+  workDir: string;
+  log: Logger;
+}
+
+export interface Analyzer {
+  /** Called for every kept record, in output order, with `split` and `tokens` set. */
+  add(record: DocRecord): void | Promise<void>;
+  /** Figures to merge into manifest.json under `key`. */
+  finish(): Promise<unknown>;
+}
+
+export interface AnalyzerFactory {
+  /** The manifest key the figures go under. */
+  key: string;
+  create(ctx: AnalyzerContext): Analyzer | undefined | Promise<Analyzer | undefined>;
+}
+
+/** Analyzers run on every build; each decides from the configuration whether it applies. */
+export const ANALYZERS: AnalyzerFactory[] = [];
