@@ -34,6 +34,8 @@ export interface StageContext {
   workDir: string;
   /** Lists a file the stage wrote under `workDir` (path relative to it) so the manifest checksums it. */
   addOutputFile(relPath: string): void;
+  /** Adds to a named counter reported in the manifest's `stage_counts` (e.g. "redact:email"). */
+  count(name: string, n?: number): void;
 }
 
 export interface Logger {

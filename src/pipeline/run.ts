@@ -66,12 +66,14 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   const segmentDtype = packOpts.length <= 65536 ? "uint16" : "uint32";
 
   const stageFiles: string[] = [];
+  const stageCounts: Record<string, number> = {};
   const ctx: StageContext = {
     seed: config.seed,
     log,
     drop: (r, reason, detail) => ledger.dropped(r, reason, detail),
     workDir: staging,
     addOutputFile: (rel) => stageFiles.push(rel),
+    count: (name, n = 1) => (stageCounts[name] = (stageCounts[name] ?? 0) + n),
   };
 
   // Sources, in file order; mixture weights decide how many copies of a record train sees.
@@ -176,7 +178,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     );
   }
 
-  const analysis: Record<string, unknown> = {};
+  const analysis: Record<string, unknown> = { stage_counts: Object.fromEntries(Object.entries(stageCounts).sort(([a], [b]) => (a < b ? -1 : 1))) };
   for (const a of analyzers) analysis[a.key] = await a.analyzer.finish();
 
   const splitOrder = ["train", "val", "test"];
