@@ -112,7 +112,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   let stream: AsyncIterable<DocRecord> = records();
   for (const entry of config.stages) {
     if (entry.name === "pack") continue;
-    const stage = await STAGES[entry.name].create(entry.options);
+    const stage = await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir });
     stream = stage(stream, ctx);
   }
 

@@ -9,5 +9,5 @@ import type { StageDefinition } from "./stage.js";
 
 export const STAGES: Record<string, StageDefinition> = { normalize, filter, dedup, split, tokenize, pack };
 
-export type { Stage, StageDefinition } from "./stage.js";
+export type { Stage, StageDefinition, StageEnv } from "./stage.js";
 export { defineStage } from "./stage.js";

@@ -5,14 +5,20 @@ import type { DocRecord, StageContext } from "../types.js";
 /** A running stage: async iterable of records in, async iterable of records out. */
 export type Stage = (input: AsyncIterable<DocRecord>, ctx: StageContext) => AsyncIterable<DocRecord>;
 
+/** What a stage may need to know when it is built. */
+export interface StageEnv {
+  /** The pipeline file's directory: relative paths in stage options are resolved against it. */
+  baseDir: string;
+}
+
 export interface StageDefinition<O = any> {
   /** The key used in the pipeline file (`- normalize: {…}`). */
   name: string;
   /** One-line summary for `plan`. */
   summary: string;
   options: Schema<O>;
-  /** Builds the stage for one run (may load resources, e.g. a tokenizer). */
-  create(options: O): Stage | Promise<Stage>;
+  /** Builds the stage for one run (may load resources, e.g. a tokenizer or a protected set). */
+  create(options: O, env: StageEnv): Stage | Promise<Stage>;
   /** Extra lines for `siftpack plan` (derived settings). */
   explain?(options: O): Record<string, unknown>;
 }
