@@ -12,6 +12,7 @@ export const ERROR_CODES = {
   SP_VERIFY: "an output file does not match the manifest",
   SP_MANIFEST: "a manifest is missing or unreadable",
   SP_TOKENIZER: "the tokenizer cannot be loaded or used",
+  SP_LOCK: "the lock file is unreadable, or the build differs from it",
 } as const;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

@@ -13,6 +13,7 @@ const EXIT: Record<ErrorCode, 1 | 2> = {
   SP_VERIFY: 1,
   SP_MANIFEST: 1,
   SP_TOKENIZER: 1,
+  SP_LOCK: 1,
 };
 
 describe("error codes", () => {

@@ -1,7 +1,9 @@
-// `siftpack run FILE`: builds the dataset and prints a summary.
+// `siftpack run FILE`: builds the dataset and prints a summary; with --lock, records or checks a lock file.
 import type { CommandModule } from "yargs";
 import { loadPipeline, displayPath } from "../pipeline/load.js";
 import { runPipeline } from "../pipeline/run.js";
+import { compareLocks, lockOf, readLock, writeLock } from "../output/lock.js";
+import { SiftpackError } from "../errors.js";
 import { makeLogger } from "./log.js";
 import { clearProgress, progressLine } from "./progress.js";
 import { formatSummary } from "./summary.js";
@@ -11,6 +13,8 @@ interface Args {
   out?: string;
   workers?: number;
   json?: boolean;
+  lock?: string;
+  check?: boolean;
 }
 
 export const runCommand: CommandModule<object, Args> = {
@@ -21,16 +25,35 @@ export const runCommand: CommandModule<object, Args> = {
       .positional("file", { type: "string", demandOption: true, describe: "pipeline file (YAML or JSON)" })
       .option("out", { type: "string", describe: "output directory (overrides output.dir)" })
       .option("workers", { type: "number", describe: "worker threads (the build currently runs on one)" })
-      .option("json", { type: "boolean", describe: "print the manifest's counts as JSON" }),
+      .option("json", { type: "boolean", describe: "print the manifest's counts as JSON" })
+      .option("lock", { type: "string", describe: "lock file: written after a build when missing (or without --check)" })
+      .option("check", { type: "boolean", describe: "with --lock: fail (exit 1) listing what differs from the lock, and leave it unchanged" })
+      .check((a) => {
+        if (a.check && !a.lock) throw new SiftpackError("SP_USAGE", "--check needs --lock FILE");
+        return true;
+      }),
   handler: async (args) => {
     const log = makeLogger();
     const pipeline = await loadPipeline(args.file, { outDir: args.out });
+    const locked = args.lock ? await readLock(args.lock) : undefined;
+    if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
     const onProgress = progressLine();
     try {
       const { manifest, outDir } = await runPipeline(pipeline, { log, onProgress });
       clearProgress();
       if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits }, null, 2) + "\n");
       else process.stdout.write(formatSummary(displayPath(outDir), manifest));
+      if (args.lock) {
+        const now = lockOf(manifest);
+        if (args.check) {
+          const diffs = compareLocks(locked!, now);
+          if (diffs.length > 0) throw new SiftpackError("SP_LOCK", `the build differs from ${args.lock} in ${diffs.length} way${diffs.length > 1 ? "s" : ""}`, { details: diffs });
+          if (!args.json) process.stdout.write(`lock ${args.lock}: the build matches (build ${now.build_hash})\n`);
+        } else {
+          await writeLock(args.lock, now);
+          if (!args.json) process.stdout.write(`lock ${args.lock} ${locked ? "updated" : "written"} (build ${now.build_hash})\n`);
+        }
+      }
     } finally {
       clearProgress();
     }

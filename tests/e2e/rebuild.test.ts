@@ -1,0 +1,113 @@
+// Rebuilding in CI: identical bytes, verify --inputs, the lock check, and a full disk.
+import { afterAll, describe, expect, it } from "vitest";
+import { cpSync, mkdirSync, readFileSync, readdirSync, writeFileSync, existsSync } from "node:fs";
+import { spawnSync } from "node:child_process";
+import { join } from "node:path";
+import { ROOT, siftpack, tempDir } from "./cli.js";
+
+/** A copy of the demo pipeline and corpus in a temp dir, its files written in the given order. */
+function demoCopy(order: "forward" | "reverse"): string {
+  const dir = tempDir(`copy-${order}`);
+  const files: string[] = [];
+  const walk = (rel: string) => {
+    for (const e of readdirSync(join(ROOT, rel), { withFileTypes: true })) {
+      if (e.isDirectory()) walk(join(rel, e.name));
+      else files.push(join(rel, e.name));
+    }
+  };
+  walk("sample-data");
+  if (order === "reverse") files.reverse();
+  for (const f of files) {
+    mkdirSync(join(dir, f, ".."), { recursive: true });
+    cpSync(join(ROOT, f), join(dir, f));
+  }
+  mkdirSync(join(dir, "pipelines"));
+  cpSync(join(ROOT, "pipelines/demo.yaml"), join(dir, "pipelines/demo.yaml"));
+  return dir;
+}
+
+function outputFiles(dir: string): Record<string, string> {
+  const out: Record<string, string> = {};
+  const walk = (rel: string) => {
+    for (const e of readdirSync(join(dir, rel), { withFileTypes: true })) {
+      const p = rel ? `${rel}/${e.name}` : e.name;
+      if (e.isDirectory()) walk(p);
+      else if (p !== "build-info.json") out[p] = readFileSync(join(dir, p)).toString("base64");
+    }
+  };
+  walk("");
+  return out;
+}
+
+describe("identical bytes", () => {
+  it("across reruns, worker counts and the order files were created in", () => {
+    const a = demoCopy("forward");
+    const b = demoCopy("reverse");
+    expect(siftpack(["run", join(a, "pipelines/demo.yaml"), "--workers", "1"]).code).toBe(0);
+    expect(siftpack(["run", join(b, "pipelines/demo.yaml"), "--workers", "2"]).code).toBe(0);
+    const fa = outputFiles(join(a, "build/demo"));
+    const fb = outputFiles(join(b, "build/demo"));
+    expect(Object.keys(fa).sort()).toEqual(Object.keys(fb).sort());
+    for (const k of Object.keys(fa)) expect(fb[k], k).toBe(fa[k]);
+    // build-info.json holds the paths and times, kept out of the hashed files.
+    const info = JSON.parse(readFileSync(join(a, "build/demo/build-info.json"), "utf8"));
+    expect(info.base_dir).toBe(join(a, "pipelines"));
+  });
+});
+
+describe("verify --inputs and the lock check", () => {
+  const dir = demoCopy("forward");
+  const pipeline = join(dir, "pipelines/demo.yaml");
+  const lock = join(dir, "siftpack.lock.json");
+
+  it("writes the lock on the first run and passes --check on an unchanged rebuild", () => {
+    const first = siftpack(["run", pipeline, "--lock", lock]);
+    expect(first.code).toBe(0);
+    expect(first.stdout).toMatch(/lock .*siftpack\.lock\.json written \(build [0-9a-f]{16}\)/);
+    const again = siftpack(["run", pipeline, "--lock", lock, "--check"]);
+    expect(again.code).toBe(0);
+    expect(again.stdout).toMatch(/the build matches/);
+    expect(siftpack(["verify", join(dir, "build/demo"), "--inputs"]).stdout).toMatch(/^ok: \d+ files and 12 inputs match/);
+  });
+
+  it("names a changed input and the split counts that moved", () => {
+    const notes = join(dir, "sample-data/notes/shift-notes.csv");
+    writeFileSync(notes, readFileSync(notes, "utf8") + `SN-9999,Quayside,driver,"Extra note added after the lock: the depot gate sensor was cleaned and tested twice."\n`);
+    const v = siftpack(["verify", join(dir, "build/demo"), "--inputs"]);
+    expect(v.code).toBe(1);
+    expect(v.stderr).toMatch(/input \.\.\/sample-data\/notes\/shift-notes\.csv \(source notes\): changed: \d+ bytes/);
+    const check = siftpack(["run", pipeline, "--lock", lock, "--check"]);
+    expect(check.code).toBe(1);
+    expect(check.stderr).toMatch(/^siftpack: error: the build differs from .*siftpack\.lock\.json in \d+ ways/);
+    expect(check.stderr).toMatch(/input changed: \.\.\/sample-data\/notes\/shift-notes\.csv \(source notes\)/);
+    expect(check.stderr).toMatch(/split test: documents \d+ → \d+ \(\+1\)/);
+    expect(check.stderr).toMatch(/build_hash: [0-9a-f]{16} → [0-9a-f]{16}/);
+  });
+
+  it("--check without a lock file is an error, and --check alone is a usage error", () => {
+    expect(siftpack(["run", pipeline, "--lock", join(dir, "none.json"), "--check"]).code).toBe(1);
+    expect(siftpack(["run", pipeline, "--check"]).code).toBe(2);
+  });
+});
+
+describe("a full disk", () => {
+  const mnt = tempDir("full");
+  const mounted = spawnSync("mount", ["-t", "tmpfs", "-o", "size=720k", "tmpfs", mnt]).status === 0;
+  afterAll(() => {
+    if (mounted) spawnSync("umount", [mnt]);
+  });
+
+  // Needs root to mount a small tmpfs (true on the developers' machines and in CI here).
+  it.runIf(mounted)("fails with a clear message and leaves the previous build intact", () => {
+    const out = join(mnt, "demo");
+    const first = siftpack(["run", "pipelines/demo.yaml", "--out", out]);
+    expect(first.code).toBe(0);
+    const before = outputFiles(out);
+    const second = siftpack(["run", "pipelines/demo.yaml", "--out", out]);
+    expect(second.code).toBe(1);
+    expect(second.stderr).toMatch(/^siftpack: error: .*no space left on device\n$/);
+    expect(outputFiles(out)).toEqual(before);
+    expect(siftpack(["verify", out]).code).toBe(0);
+    expect(existsSync(join(mnt, ".demo.partial"))).toBe(true);
+  });
+});
