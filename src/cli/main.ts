@@ -32,6 +32,7 @@ export async function main(argv: string[]): Promise<number> {
       .command(verifyCommand)
       .command(statsCommand)
       .command(encodeCommand)
+      .command((await import("./inspect.js")).inspectCommand)
       .demandCommand(1, "name a command")
       .strict()
       .version(toolVersion())

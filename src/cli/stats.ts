@@ -1,7 +1,7 @@
-// `siftpack stats DIR`: documents, tokens, blocks and padding per split; record fates per source.
+// `siftpack stats DIR`: documents, tokens, blocks, padding and cuts per split; document lengths; record fates per source.
 import type { CommandModule } from "yargs";
 import { readManifest } from "../output/manifest.js";
-import { recordsLine, splitTable, table } from "./summary.js";
+import { lengthTable, recordsLine, splitTable, table } from "./summary.js";
 
 interface Args {
   dir: string;
@@ -10,17 +10,25 @@ interface Args {
 
 export const statsCommand: CommandModule<object, Args> = {
   command: "stats <dir>",
-  describe: "documents, tokens, blocks and padding per split and source",
+  describe: "documents, tokens, blocks, padding and cuts per split; document lengths; records per source",
   builder: (y) => y.positional("dir", { type: "string", demandOption: true }).option("json", { type: "boolean" }),
   handler: async (args) => {
     const m = await readManifest(args.dir);
     if (args.json) {
-      const splits = Object.fromEntries(Object.entries(m.splits).map(([k, s]) => [k, { ...s, shards: s.shards.length, padding_fraction: s.blocks ? s.padding_tokens / (s.blocks * m.length) : 0 }]));
-      process.stdout.write(JSON.stringify({ length: m.length, tokenizer: m.tokenizer.name, splits, records: m.records }, null, 2) + "\n");
+      // Older manifests lack padding_fraction; it is derived from the counts then.
+      const splits = Object.fromEntries(
+        Object.entries(m.splits).map(([k, s]) => [k, { ...s, shards: s.shards.length, padding_fraction: s.padding_fraction ?? (s.blocks ? s.padding_tokens / (s.blocks * m.length) : 0) }]),
+      );
+      process.stdout.write(JSON.stringify({ length: m.length, strategy: m.strategy, tokenizer: m.tokenizer.name, splits, records: m.records }, null, 2) + "\n");
       return;
     }
-    let out = `${args.dir}: ${m.tokenizer.name}, blocks of ${m.length} tokens (${m.dtype}), build ${m.build_hash}\n\n`;
-    out += splitTable(m) + "\n" + recordsLine(m) + "\n";
+    let out = `${args.dir}: ${m.tokenizer.name}, blocks of ${m.length} tokens (${m.dtype}), ${m.strategy} packing, build ${m.build_hash}\n\n`;
+    out += splitTable(m, { detail: true });
+    out += "  cut docs: documents placed in two or more pieces; lost targets: tokens that are not targets only because of a cut;\n";
+    out += "  continuation: tokens in the later pieces of cut documents (they see only part of their document)\n";
+    const lengths = lengthTable(m);
+    if (lengths) out += "\ndocument lengths in tokens (end-of-text included), documents per split\n" + lengths;
+    out += "\n" + recordsLine(m) + "\n";
     const rows: (string | number)[][] = [["source", "read", "kept", "dropped", "quarantined"]];
     for (const [name, s] of Object.entries(m.records.by_source)) rows.push([name, s.read, s.kept, s.dropped, s.quarantined]);
     out += table(rows);

@@ -10,10 +10,32 @@ export function pct(part: number, whole: number): string {
   return whole === 0 ? "0.0%" : `${((100 * part) / whole).toFixed(1)}%`;
 }
 
-export function splitTable(m: Manifest): string {
-  const rows: (string | number)[][] = [["split", "documents", "blocks", "tokens", "targets", "padding", "padding %", "shards"]];
+/**
+ * One line per split. `detail` adds how packing cut documents: targets lost to cuts (first tokens
+ * of continuation pieces) and continuation tokens (tokens that see only part of their document).
+ * Manifests written before those counts existed show "-".
+ */
+export function splitTable(m: Manifest, opts: { detail?: boolean } = {}): string {
+  const head = ["split", "documents", "blocks", "tokens", "targets", "padding", "padding %", "cut docs"];
+  if (opts.detail) head.push("lost targets", "continuation");
+  const rows: (string | number)[][] = [[...head, "shards"]];
   for (const [name, s] of Object.entries(m.splits)) {
-    rows.push([name, s.documents, s.blocks, s.tokens, s.target_tokens, s.padding_tokens, pct(s.padding_tokens, s.blocks * m.length), s.shards.length]);
+    const row: (string | number)[] = [name, s.documents, s.blocks, s.tokens, s.target_tokens, s.padding_tokens, pct(s.padding_tokens, s.blocks * m.length), s.cut_documents ?? "-"];
+    if (opts.detail) row.push(s.targets_lost_to_cuts ?? "-", s.continuation_tokens ?? "-");
+    rows.push([...row, s.shards.length]);
+  }
+  return table(rows);
+}
+
+/** Document lengths per split in power-of-two buckets, one row per bucket; empty when the manifest has no histograms. */
+export function lengthTable(m: Manifest): string {
+  const splits = Object.entries(m.splits).filter(([, s]) => Array.isArray(s.length_histogram));
+  const mins = [...new Set(splits.flatMap(([, s]) => s.length_histogram.map((b) => b.min)))].sort((a, b) => a - b);
+  if (mins.length === 0) return "";
+  const rows: (string | number)[][] = [["tokens", ...splits.map(([name]) => name)]];
+  for (const min of mins) {
+    const label = `${min}–${2 * min - 1}`;
+    rows.push([label, ...splits.map(([, s]) => s.length_histogram.find((b) => b.min === min)?.documents ?? 0)]);
   }
   return table(rows);
 }
@@ -29,7 +51,7 @@ export function recordsLine(m: Manifest): string {
 
 export function formatSummary(dir: string, m: Manifest): string {
   return (
-    `built ${dir}  (${m.tokenizer.name}, blocks of ${m.length} ${m.dtype} tokens, build ${m.build_hash})\n` +
+    `built ${dir}  (${m.tokenizer.name}, blocks of ${m.length} ${m.dtype} tokens, ${m.strategy} packing, build ${m.build_hash})\n` +
     recordsLine(m) +
     splitTable(m)
   );

@@ -4,6 +4,7 @@ import { join } from "node:path";
 import { dtypeBytes, encodeValues, npyHeader, type Dtype } from "./npy.js";
 import { writeFileAtomic } from "./atomic.js";
 import { hex64, loadHasher } from "../lib/hash.js";
+import type { HistogramBucket } from "../pack/length-histogram.js";
 
 export type Emit = "positions" | "target_mask" | "cu_seqlens";
 
@@ -29,7 +30,16 @@ export interface SplitStats {
   tokens: number;
   target_tokens: number;
   padding_tokens: number;
+  /** padding_tokens / (blocks × length); 0 for an empty split. */
+  padding_fraction: number;
+  /** Documents placed in two or more pieces (rows). */
   cut_documents: number;
+  /** Tokens that are not targets only because a cut put the token before them in another row (one per cut). */
+  targets_lost_to_cuts: number;
+  /** Tokens in the second and later pieces of cut documents: they see only part of their document. */
+  continuation_tokens: number;
+  /** Document lengths in tokens, power-of-two buckets [min, max]. */
+  length_histogram: HistogramBucket[];
   shards: ShardEntry[];
 }
 
@@ -51,7 +61,20 @@ export class ShardWriter {
   private readonly full: { tokens: Uint32Array; segments: Uint32Array; rows: number }[] = [];
   private shardIndex = 0;
   readonly files: WrittenFile[] = [];
-  readonly stats: SplitStats = { documents: 0, blocks: 0, tokens: 0, target_tokens: 0, padding_tokens: 0, cut_documents: 0, shards: [] };
+  // Key order here is the order in manifest.json; the packer fills documents and the cut counts.
+  readonly stats: SplitStats = {
+    documents: 0,
+    blocks: 0,
+    tokens: 0,
+    target_tokens: 0,
+    padding_tokens: 0,
+    padding_fraction: 0,
+    cut_documents: 0,
+    targets_lost_to_cuts: 0,
+    continuation_tokens: 0,
+    length_histogram: [],
+    shards: [],
+  };
 
   constructor(o: ShardWriterOptions) {
     this.o = o;
@@ -103,6 +126,9 @@ export class ShardWriter {
     await this.writePending();
     if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows);
     this.rows = 0;
+    const s = this.stats;
+    // Rounded so the manifest shows a readable number; the exact counts sit beside it.
+    s.padding_fraction = s.blocks === 0 ? 0 : Math.round((s.padding_tokens / (s.blocks * this.o.length)) * 1e6) / 1e6;
   }
 
   private async writeShard(tokens: Uint32Array, segments: Uint32Array, rows: number): Promise<void> {

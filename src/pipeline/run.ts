@@ -63,7 +63,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   const packOpts = config.stages.find((s) => s.name === "pack")!.options as PackOptions;
   const encoder = await loadEncoding(tokOpts.encoding);
   const tokenDtype = encoder.vocabSize <= 65536 ? "uint16" : "uint32";
-  const segmentDtype = packOpts.length <= 65536 ? "uint16" : "uint32";
+  const segmentDtype = packOpts.length < 65536 ? "uint16" : "uint32";
 
   const stageFiles: string[] = [];
   const stageCounts: Record<string, number> = {};
@@ -135,7 +135,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
         segmentDtype,
         emit: packOpts.emit as Emit[],
       });
-      const packer = createPacker(packOpts, encoder.eosId, (t, s) => writer.addRow(t, s));
+      const packer = createPacker(packOpts, encoder.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split });
       w = { writer, packer };
       writers.set(split, w);
     }
@@ -158,8 +158,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     for (const { writer, packer } of writers.values()) {
       packer.finish();
       await writer.finish();
-      writer.stats.documents = packer.documents;
-      writer.stats.cut_documents = packer.cutDocuments;
+      Object.assign(writer.stats, packer.stats);
     }
     await ledger.close();
   } catch (err) {

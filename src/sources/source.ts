@@ -115,11 +115,36 @@ function hasField(fields: Record<string, unknown>, name: string): boolean {
 }
 
 /** Maps rows to records for one source; holds the record counter and the explicit ids seen. */
-class RecordMapper {
+export class RecordMapper {
   private count = 0;
   private readonly ids = new Set<string>();
+  /** Order-independent digest of the explicit ids seen (a sum of their hashes), for cache keys. */
+  private idDigest = 0n;
 
   constructor(private readonly spec: SourceSpec) {}
+
+  /** Rows mapped so far (bad ones included): the next default id is `<source>:<rows + 1>`. */
+  get rows(): number {
+    return this.count;
+  }
+
+  /** A value that changes whenever the set of explicit ids seen changes. */
+  get idsDigest(): string {
+    return this.idDigest.toString(16);
+  }
+
+  /** Replays a file read in an earlier run: its rows and the explicit ids it registered. */
+  replay(rows: number, ids: Iterable<string>): void {
+    this.count += rows;
+    if (this.spec.id !== undefined) for (const id of ids) this.register(id);
+  }
+
+  private register(id: string): void {
+    this.ids.add(id);
+    let h = 1469598103934665603n;
+    for (let i = 0; i < id.length; i++) h = ((h ^ BigInt(id.charCodeAt(i))) * 1099511628211n) & 0xffffffffffffffffn;
+    this.idDigest = (this.idDigest + h) & 0xffffffffffffffffn;
+  }
 
   map(row: Row, file: string): SourceItem | SourceBad {
     // Every row counts, bad ones too, so a default id does not move when an earlier row breaks or heals.
@@ -143,7 +168,7 @@ class RecordMapper {
       else return bad(`id field "${spec.id}" is not a string or number (got ${kindOf(value)})`);
       if (id === "") return bad(`id field "${spec.id}" is empty`);
       if (this.ids.has(id)) return bad(`duplicate id "${id}"`);
-      this.ids.add(id);
+      this.register(id);
     }
 
     const meta: Record<string, unknown> = {};
@@ -159,13 +184,16 @@ class RecordMapper {
  */
 export async function* readSource(spec: SourceSpec, baseDir: string): AsyncGenerator<SourceItem | SourceBad> {
   const files = await listFiles(spec, baseDir);
-  const read = readerFor(spec.format);
   const mapper = new RecordMapper(spec);
-  for (const file of files) {
-    try {
-      for await (const row of read(path.resolve(baseDir, file))) yield mapper.map(row, file);
-    } catch (err) {
-      throw withSource(spec, err);
-    }
+  for (const file of files) yield* readSourceFile(spec, baseDir, file, mapper);
+}
+
+/** The rows of one file of a source; `mapper` carries the record count and ids across files. */
+export async function* readSourceFile(spec: SourceSpec, baseDir: string, file: string, mapper: RecordMapper): AsyncGenerator<SourceItem | SourceBad> {
+  const read = readerFor(spec.format);
+  try {
+    for await (const row of read(path.resolve(baseDir, file))) yield mapper.map(row, file);
+  } catch (err) {
+    throw withSource(spec, err);
   }
 }

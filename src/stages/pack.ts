@@ -1,94 +1,84 @@
-// pack: cuts each split's token stream into fixed-length rows with per-row segment ids (the run's sink).
+// pack: the option schema of the pack stage and the factory that builds each split's packer (the run's sink).
 import { defineStage } from "./stage.js";
-import { field, list, num, obj, str, type Infer } from "../pipeline/schema.js";
+import { field, list, num, obj, refine, str, type Infer, type Schema } from "../pipeline/schema.js";
+import type { Packer, RowSink } from "../pack/packer.js";
+import { ConcatPacker } from "../pack/concat.js";
+import { BestFitPacker } from "../pack/best-fit.js";
+import { SinglePacker } from "../pack/single.js";
+import { RowShuffle, ShuffledPacker } from "../pack/row-shuffle.js";
+import { seedFor } from "../pack/rng.js";
 
-export const packOptions = obj({
-  length: field(num({ integer: true, min: 2, max: 1 << 20 }), { default: 1024 }),
-  strategy: field(str({ oneOf: ["concat"] }), { default: "concat" }),
-  emit: field(list(str({ oneOf: ["positions", "target_mask", "cu_seqlens"] })), { default: [] }),
-});
+export { ConcatPacker } from "../pack/concat.js";
+export { BestFitPacker } from "../pack/best-fit.js";
+export { SinglePacker } from "../pack/single.js";
+export type { Packer, RowSink } from "../pack/packer.js";
+export type { PackStats } from "../pack/tally.js";
+
+export const STRATEGIES = ["concat", "best-fit", "single"] as const;
+const SPLITS = ["train", "val", "test"] as const;
+/** Pieces best-fit holds before packing them when `buffer_docs` is not given. */
+export const DEFAULT_BUFFER_DOCS = 10_000;
+
+/** `shuffle`: true (every split), false (none) or the splits to shuffle (a single name is accepted too). */
+const shuffleSchema: Schema<boolean | string[]> = {
+  describe: "true, false or a list of splits (train, val, test)",
+  check(value, path, issues) {
+    if (typeof value === "boolean") return value;
+    return list(str({ oneOf: SPLITS }), { orSingle: true }).check(value, path, issues);
+  },
+};
+
+export const packOptions = refine(
+  obj({
+    length: field(num({ integer: true, min: 2, max: 1 << 20 }), { default: 1024 }),
+    strategy: field(str({ oneOf: STRATEGIES }), { default: "concat" }),
+    emit: field(list(str({ oneOf: ["positions", "target_mask", "cu_seqlens"] })), { default: [] }),
+    // No schema default: the key only means something for best-fit (see the rule below).
+    buffer_docs: field(num({ integer: true, min: 1, max: 10_000_000 })),
+    // Training rows are shuffled by default; held-out rows keep packing order (their loss is summed
+    // over all rows, so order does not matter, and unshuffled rows are easier to trace back).
+    shuffle: field(shuffleSchema, { default: ["train"] }),
+    shuffle_window: field(num({ integer: true, min: 1, max: 10_000_000 }), { default: 4096 }),
+  }),
+  (o, path, issues) => {
+    if (o.buffer_docs !== undefined && o.strategy !== "best-fit")
+      issues.push({ path: [...path, "buffer_docs"], atKey: true, message: `buffer_docs applies to strategy best-fit only (strategy is ${o.strategy})` });
+  },
+);
 export type PackOptions = Infer<typeof packOptions>;
 
-/** Receives full rows: `tokens` and `segments` are views valid only during the call. */
-export type RowSink = (tokens: Uint32Array, segments: Uint32Array) => void;
-
-/** Turns a split's documents (token arrays) into rows; one packer per split. */
-export interface Packer {
-  add(doc: Uint32Array): void;
-  /** Emits whatever is still buffered (padded). */
-  finish(): void;
-  readonly documents: number;
-  /** Documents split across two or more rows. */
-  readonly cutDocuments: number;
+/** Whether the rows of `split` go through the shuffle buffer. */
+export function shufflesSplit(shuffle: boolean | string[], split: string): boolean {
+  return typeof shuffle === "boolean" ? shuffle : shuffle.includes(split);
 }
 
-export function createPacker(o: PackOptions, padId: number, sink: RowSink): Packer {
+/** Where a packer is used: the pipeline seed and the split, which together seed its row shuffle. */
+export interface PackContext {
+  seed: number;
+  split: string;
+}
+
+export function createPacker(o: PackOptions, padId: number, sink: RowSink, ctx: PackContext): Packer {
+  const shuffle = shufflesSplit(o.shuffle, ctx.split) ? new RowShuffle(o.length, o.shuffle_window, seedFor(ctx.seed, `shuffle:${ctx.split}`), sink) : undefined;
+  const out = shuffle?.sink ?? sink;
+  let packer: Packer;
   switch (o.strategy) {
     case "concat":
-      return new ConcatPacker(o.length, padId, sink);
+      packer = new ConcatPacker(o.length, padId, out);
+      break;
+    case "best-fit":
+      packer = new BestFitPacker(o.length, padId, out, o.buffer_docs ?? DEFAULT_BUFFER_DOCS);
+      break;
+    case "single":
+      packer = new SinglePacker(o.length, padId, out);
+      break;
     default:
       throw new Error(`unknown packing strategy ${String(o.strategy)}`);
   }
+  return shuffle ? new ShuffledPacker(packer, shuffle) : packer;
 }
 
-/**
- * `concat`: documents back to back (each already ends in EOS when the tokenize stage adds it),
- * cut every `length` tokens; a document may continue in the next row, where it starts a new
- * segment (1). Only the last row of a split is padded (segment 0, token = pad id).
- */
-export class ConcatPacker implements Packer {
-  readonly length: number;
-  readonly padId: number;
-  private readonly tokens: Uint32Array;
-  private readonly segments: Uint32Array;
-  private fill = 0;
-  private segment = 0;
-  private readonly sink: RowSink;
-  documents = 0;
-  /** Documents split across two or more rows. */
-  cutDocuments = 0;
-
-  constructor(length: number, padId: number, sink: RowSink) {
-    this.length = length;
-    this.padId = padId;
-    this.tokens = new Uint32Array(length);
-    this.segments = new Uint32Array(length);
-    this.sink = sink;
-  }
-
-  add(doc: Uint32Array): void {
-    if (doc.length === 0) return;
-    this.documents++;
-    let at = 0;
-    this.segment++;
-    if (this.fill + doc.length > this.length) this.cutDocuments++;
-    while (at < doc.length) {
-      const take = Math.min(this.length - this.fill, doc.length - at);
-      this.tokens.set(doc.subarray(at, at + take), this.fill);
-      this.segments.fill(this.segment, this.fill, this.fill + take);
-      this.fill += take;
-      at += take;
-      if (this.fill === this.length) {
-        this.flushRow();
-        if (at < doc.length) this.segment = 1;
-      }
-    }
-  }
-
-  private flushRow(): void {
-    this.sink(this.tokens, this.segments);
-    this.fill = 0;
-    this.segment = 0;
-  }
-
-  /** Pads and emits the last partial row, if any. */
-  finish(): void {
-    if (this.fill === 0) return;
-    this.tokens.fill(this.padId, this.fill);
-    this.segments.fill(0, this.fill);
-    this.flushRow();
-  }
-}
+const MB = 1 << 20;
 
 export default defineStage({
   name: "pack",
@@ -97,5 +87,15 @@ export default defineStage({
   // The runner drives packing (one packer per split); as a stage it passes records through.
   create() {
     return (input) => input;
+  },
+  explain(o) {
+    // Upper bounds of what packing holds in memory per split, so a user can size length and windows.
+    const extra: Record<string, unknown> = {};
+    if (o.strategy === "best-fit") {
+      extra.buffer_docs = o.buffer_docs ?? DEFAULT_BUFFER_DOCS;
+      extra.buffer_memory_mb = Math.ceil((extra.buffer_docs as number) * o.length * 4 / MB);
+    }
+    if (o.shuffle === true || (Array.isArray(o.shuffle) && o.shuffle.length > 0)) extra.shuffle_memory_mb = Math.ceil(o.shuffle_window * o.length * 8 / MB);
+    return extra;
   },
 });

@@ -1,0 +1,62 @@
+// The packer contract (documents in, fixed-length rows out) and the row buffer every strategy shares.
+import { PackTally, type PackStats } from "./tally.js";
+
+/** Receives full rows: `tokens` and `segments` are views valid only during the call. */
+export type RowSink = (tokens: Uint32Array, segments: Uint32Array) => void;
+
+/** Turns a split's documents (token arrays) into rows; one packer per split. */
+export interface Packer {
+  /** Takes one document; the array may be reused by the caller after the call returns. */
+  add(doc: Uint32Array): void;
+  /** Emits whatever is still buffered (padded). */
+  finish(): void;
+  /** Statistics so far (complete after `finish`). */
+  readonly stats: PackStats;
+}
+
+/**
+ * A row under construction: `tokens` / `segments` of `length`, padded with `padId` / segment 0 and
+ * handed to the sink by `emit`. Segment ids count from 1 within each row.
+ */
+export abstract class RowPacker implements Packer {
+  readonly length: number;
+  readonly padId: number;
+  protected readonly tokens: Uint32Array;
+  protected readonly segments: Uint32Array;
+  protected readonly tally = new PackTally();
+  private readonly sink: RowSink;
+
+  constructor(length: number, padId: number, sink: RowSink) {
+    this.length = length;
+    this.padId = padId;
+    this.tokens = new Uint32Array(length);
+    this.segments = new Uint32Array(length);
+    this.sink = sink;
+  }
+
+  abstract add(doc: Uint32Array): void;
+  abstract finish(): void;
+
+  /** Pads the row from `fill` on and hands it to the sink. */
+  protected emit(fill: number): void {
+    if (fill < this.length) {
+      this.tokens.fill(this.padId, fill);
+      this.segments.fill(0, fill);
+    }
+    this.sink(this.tokens, this.segments);
+  }
+
+  get stats(): PackStats {
+    return this.tally.stats();
+  }
+
+  /** Documents given so far (empty ones are ignored). */
+  get documents(): number {
+    return this.tally.documents;
+  }
+
+  /** Documents split across two or more rows. */
+  get cutDocuments(): number {
+    return this.tally.cutDocuments;
+  }
+}

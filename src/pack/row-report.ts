@@ -1,0 +1,71 @@
+// One packed row for a person: its pieces decoded to text between boundary lines, or a token-by-token table.
+import { segmentRuns } from "./segment-runs.js";
+import { positionsOf, targetMaskOf } from "../output/shard-writer.js";
+
+export interface RowInput {
+  tokens: Uint32Array;
+  segments: Uint32Array;
+  decode: (ids: ArrayLike<number>) => string;
+  /** The end-of-text id, and whether the build appended it to every document (then a piece without it at its end was cut there). */
+  eosId: number;
+  eosAppended: boolean;
+}
+
+export interface PieceReport {
+  segment: number;
+  start: number;
+  /** Exclusive. */
+  end: number;
+  text: string;
+  /** Whether the piece's last token is end-of-text; absent for padding. */
+  ends_with_eos?: boolean;
+}
+
+export interface RowReport {
+  length: number;
+  pieces: PieceReport[];
+  document_tokens: number;
+  padding: number;
+  targets: number;
+}
+
+export function describeRow(r: RowInput): RowReport {
+  const pieces: PieceReport[] = segmentRuns(r.segments).map((run) => {
+    if (run.segment === 0) return { segment: 0, start: run.start, end: run.end, text: "" };
+    const ids = r.tokens.subarray(run.start, run.end);
+    return { segment: run.segment, start: run.start, end: run.end, text: r.decode(ids), ends_with_eos: ids[ids.length - 1] === r.eosId };
+  });
+  const padding = pieces.filter((p) => p.segment === 0).reduce((a, p) => a + p.end - p.start, 0);
+  const targets = targetMaskOf(r.segments, r.segments.length).reduce((a, v) => a + v, 0);
+  return { length: r.segments.length, pieces, document_tokens: r.segments.length - padding, padding, targets };
+}
+
+/** The decoded row: a boundary line before every piece (segment, token range, whether it was cut at its end), its text indented under it. */
+export function rowText(report: RowReport, eosAppended: boolean): string {
+  const out: string[] = [];
+  for (const p of report.pieces) {
+    const range = `tokens ${p.start}–${p.end - 1} (${p.end - p.start})`;
+    if (p.segment === 0) {
+      out.push(`┌─ padding · ${range}`);
+      continue;
+    }
+    const note = !eosAppended ? "" : p.ends_with_eos ? " · ends with end-of-text" : " · no end-of-text at its end: the document was cut here and continues in another block";
+    out.push(`┌─ segment ${p.segment} · ${range}${note}`);
+    for (const line of p.text.split("\n")) out.push(`│ ${line}`);
+  }
+  return out.join("\n") + "\n";
+}
+
+/** One line per token: index, segment, position, whether it is a target, id, and the token's own text (JSON-quoted, so spaces and newlines show). */
+export function rowTable(r: RowInput): string {
+  const L = r.segments.length;
+  const pos = positionsOf(r.segments, L);
+  const target = targetMaskOf(r.segments, L);
+  const rows: string[][] = [["index", "segment", "position", "target", "id", "token"]];
+  for (let i = 0; i < L; i++) {
+    const pad = r.segments[i] === 0;
+    rows.push([String(i), pad ? "pad" : String(r.segments[i]), pad ? "-" : String(pos[i]), target[i] ? "yes" : "-", String(r.tokens[i]), JSON.stringify(r.decode([r.tokens[i]]))]);
+  }
+  const widths = rows[0].map((_, c) => Math.max(...rows.map((row) => row[c].length)));
+  return rows.map((row) => row.map((v, c) => (c === row.length - 1 ? v : v.padEnd(widths[c]))).join("  ")).join("\n") + "\n";
+}
