@@ -7,6 +7,7 @@ import { SiftpackError } from "../errors.js";
 import { makeLogger } from "./log.js";
 import { clearProgress, progressLine } from "./progress.js";
 import { formatSummary } from "./summary.js";
+import type { CacheReport } from "../cache/build-cache.js";
 
 interface Args {
   file: string;
@@ -15,6 +16,12 @@ interface Args {
   json?: boolean;
   lock?: string;
   check?: boolean;
+  cache?: boolean;
+}
+
+function cacheLine(c: CacheReport): string {
+  const files = (x: { reused: number; computed: number }) => `${x.reused} of ${x.reused + x.computed} files reused`;
+  return `cache: read ${files(c.read)}; tokens ${c.tokens.reused + c.tokens.computed ? files(c.tokens) : "not cached (a stage before tokenize may change text)"}\n`;
 }
 
 export const runCommand: CommandModule<object, Args> = {
@@ -27,6 +34,7 @@ export const runCommand: CommandModule<object, Args> = {
       .option("workers", { type: "number", describe: "worker threads (the build currently runs on one)" })
       .option("json", { type: "boolean", describe: "print the manifest's counts as JSON" })
       .option("lock", { type: "string", describe: "lock file: written after a build when missing (or without --check)" })
+      .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds (--no-cache recomputes them)" })
       .option("check", { type: "boolean", describe: "with --lock: fail (exit 1) listing what differs from the lock, and leave it unchanged" })
       .check((a) => {
         if (a.check && !a.lock) throw new SiftpackError("SP_USAGE", "--check needs --lock FILE");
@@ -39,10 +47,10 @@ export const runCommand: CommandModule<object, Args> = {
     if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
     const onProgress = progressLine();
     try {
-      const { manifest, outDir } = await runPipeline(pipeline, { log, onProgress });
+      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress, cache: args.cache });
       clearProgress();
-      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits }, null, 2) + "\n");
-      else process.stdout.write(formatSummary(displayPath(outDir), manifest));
+      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits, cache }, null, 2) + "\n");
+      else process.stdout.write(formatSummary(displayPath(outDir), manifest) + cacheLine(cache));
       if (args.lock) {
         const now = lockOf(manifest);
         if (args.check) {

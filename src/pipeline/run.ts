@@ -4,7 +4,11 @@ import { SiftpackError, describeSystemError } from "../errors.js";
 import { STAGES } from "../stages/index.js";
 import { createPacker, type Packer, type PackOptions } from "../stages/pack.js";
 import type { TokenizeOptions } from "../stages/tokenize.js";
-import { listFiles, readSource } from "../sources/source.js";
+import { listFiles } from "../sources/source.js";
+import { readUnits } from "./read-units.js";
+import { cachedTokenize } from "./cached-tokenize.js";
+import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
+import { crashPoint } from "../lib/crash-point.js";
 import { Ledger } from "../output/ledger.js";
 import { ShardWriter, type Emit } from "../output/shard-writer.js";
 import { prepareStaging, publishStaging } from "../output/output-dir.js";
@@ -18,6 +22,8 @@ import { ANALYZERS, type Analyzer } from "../analysis/analyzer.js";
 
 export interface RunOptions {
   log: Logger;
+  /** Reuse cached per-file results (default true); false recomputes and refreshes them. */
+  cache?: boolean;
   /** Called about twice a second with running counts (for a progress line). */
   onProgress?: (p: { read: number; kept: number; dropped: number; quarantined: number }) => void;
 }
@@ -25,10 +31,8 @@ export interface RunOptions {
 export interface RunResult {
   outDir: string;
   manifest: Manifest;
-}
-
-interface Copies {
-  copies: number;
+  /** Which units came from the cache and which were computed. */
+  cache: CacheReport;
 }
 
 /** How many times a record of a source with `weight` enters training: floor(w), plus one more with probability frac(w). */
@@ -77,8 +81,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   };
 
   // Sources, in file order; mixture weights decide how many copies of a record train sees.
-  const copies = new WeakMap<DocRecord, Copies>();
-  let seq = 0;
+  const copies = new WeakMap<DocRecord, number>();
   let lastProgress = 0;
   const progress = () => {
     const now = Date.now();
@@ -88,32 +91,37 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
       opts.onProgress({ read, kept, dropped, quarantined });
     }
   };
-  async function* records(): AsyncGenerator<DocRecord> {
-    for (const spec of config.sources) {
-      for await (const item of readSource(spec, p.baseDir)) {
-        await ledger.flush();
-        progress();
-        if (item.kind === "bad") {
-          await ledger.quarantined(item.entry);
-          continue;
-        }
-        const r: DocRecord = { id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: seq++ };
-        const n = spec.weight === 1 ? 1 : copiesFor(spec.weight, `${r.source}\u0000${r.id}`, config.seed);
-        if (n === 0) {
-          ledger.dropped(r, "subsampled", { weight: spec.weight });
-          continue;
-        }
-        if (n !== 1) copies.set(r, { copies: n });
-        yield r;
-      }
-    }
-  }
 
-  let stream: AsyncIterable<DocRecord> = records();
+  // The leading per-record stages run (and are cached) per input file; the rest see one stream.
+  const built = [];
   for (const entry of config.stages) {
     if (entry.name === "pack") continue;
-    const stage = await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir });
-    stream = stage(stream, ctx);
+    built.push({ entry, def: STAGES[entry.name], stage: await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir }) });
+  }
+  let prefixLength = 0;
+  while (prefixLength < built.length && built[prefixLength].def.perRecord) prefixLength++;
+  const cache = new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
+  await cache.open();
+  const unitKeys = new Map<string, string>();
+  let stream: AsyncIterable<DocRecord> = readUnits({
+    config,
+    baseDir: p.baseDir,
+    inputs,
+    cache,
+    ledger,
+    ctx,
+    prefix: built.slice(0, prefixLength),
+    copiesFor: (spec, r) => (spec.weight === 1 ? 1 : copiesFor(spec.weight, `${r.source}\u0000${r.id}`, config.seed)),
+    copies,
+    unitKeys,
+    progress,
+  });
+  for (let i = prefixLength; i < built.length; i++) {
+    const { entry, stage } = built[i];
+    // Token ids are cached per input file when nothing between the file's read unit and the
+    // tokenizer can change a record's text.
+    const cacheTokens = entry.name === "tokenize" && built.slice(prefixLength, i).every((b) => b.def.keepsText);
+    stream = (cacheTokens ? cachedTokenize(entry.options as TokenizeOptions, cache, unitKeys) : stage)(stream, ctx);
   }
 
   const analyzers: { key: string; analyzer: Analyzer }[] = [];
@@ -146,7 +154,8 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     for await (const r of stream) {
       const split = r.split ?? "train";
       // Repetition serves the training mixture only; held-out text is seen once.
-      const n = split === "train" ? (copies.get(r)?.copies ?? 1) : 1;
+      const n = split === "train" ? (copies.get(r) ?? 1) : 1;
+      crashPoint("records");
       ledger.kept(r, n !== 1 ? { copies: n } : {});
       const { writer, packer } = writerFor(split);
       for (let i = 0; i < n; i++) packer.add(r.tokens!);
@@ -198,6 +207,8 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   });
   await writeBuildInfo(staging, p, startedAt);
   await publishStaging(staging, p.outDir);
+  await cache.prune();
   log.info({ outDir: p.outDir, records: c.read, kept: c.kept }, "build complete");
-  return { outDir: p.outDir, manifest };
+  log.info({ cache: cache.report }, "cache");
+  return { outDir: p.outDir, manifest, cache: cache.report };
 }

@@ -11,6 +11,7 @@ export type DedupOptions = Infer<typeof dedupOptions>;
 export default defineStage({
   name: "dedup",
   summary: "removes duplicate documents, keeping the first",
+  keepsText: true,
   options: dedupOptions,
   async create() {
     await loadHasher();

@@ -62,6 +62,7 @@ export function filterReason(text: string, o: FilterOptions): string | undefined
 export default defineStage({
   name: "filter",
   summary: "drops records outside word/character length bounds",
+  perRecord: true,
   options: filterOptions,
   create(o) {
     return async function* filter(input, ctx) {

@@ -40,6 +40,8 @@ export function assignSplit(key: string, seed: number, holdout: { val: number; t
 export default defineStage({
   name: "split",
   summary: "assigns train / val / test deterministically",
+  perRecord: true,
+  keepsText: true,
   options: splitOptions,
   async create(o) {
     await loadHasher();

@@ -19,6 +19,13 @@ export interface StageDefinition<O = any> {
   options: Schema<O>;
   /** Builds the stage for one run (may load resources, e.g. a tokenizer or a protected set). */
   create(options: O, env: StageEnv): Stage | Promise<Stage>;
+  /**
+   * Each record's fate depends only on that record, the options and the seed, with no state
+   * across records: a run of such stages at the head of the pipeline is cached per input file.
+   */
+  perRecord?: boolean;
+  /** Never changes a record's text, so token ids cached for a text stay valid across the stage. */
+  keepsText?: boolean;
   /** Extra lines for `siftpack plan` (derived settings). */
   explain?(options: O): Record<string, unknown>;
 }

@@ -25,6 +25,8 @@ export function tokenizeText(enc: Encoder, text: string, o: TokenizeOptions, buf
 export default defineStage({
   name: "tokenize",
   summary: "byte-level BPE token ids",
+  perRecord: true,
+  keepsText: true,
   options: tokenizeOptions,
   async create(o) {
     const enc = await loadEncoding(o.encoding);

@@ -1,6 +1,6 @@
 // Helpers for end-to-end tests: run the built CLI as a user would, in temp directories.
 import { spawnSync } from "node:child_process";
-import { existsSync, mkdtempSync } from "node:fs";
+import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 
@@ -13,16 +13,16 @@ export interface CliResult {
   stderr: string;
 }
 
-export function siftpack(args: string[], opts: { cwd?: string; input?: string } = {}): CliResult {
+export function siftpack(args: string[], opts: { cwd?: string; input?: string; env?: Record<string, string> } = {}): CliResult & { signal: NodeJS.Signals | null } {
   if (!existsSync(join(ROOT, "dist/cli/main.js"))) throw new Error("dist/ is missing: run `npm run build` (npm test does it)");
   const r = spawnSync(process.execPath, [BIN, ...args], {
     cwd: opts.cwd ?? ROOT,
     input: opts.input,
     encoding: "utf8",
-    env: { ...process.env, SIFTPACK_LOG: "warn" },
+    env: { ...process.env, SIFTPACK_LOG: "warn", ...opts.env },
     maxBuffer: 64 << 20,
   });
-  return { code: r.status ?? -1, stdout: r.stdout, stderr: r.stderr };
+  return { code: r.status ?? -1, stdout: r.stdout, stderr: r.stderr, signal: r.signal };
 }
 
 export function tempDir(prefix: string): string {
@@ -34,4 +34,39 @@ export function python(code: string, args: string[] = []): string {
   const r = spawnSync("/usr/bin/python3", ["-c", code, ...args], { encoding: "utf8", maxBuffer: 64 << 20 });
   if (r.status !== 0) throw new Error(`python failed (${r.status}): ${r.stderr}`);
   return r.stdout;
+}
+
+/** A copy of the demo pipeline and corpus in a temp dir, its files written in the given order. */
+export function demoCopy(order: "forward" | "reverse" = "forward"): string {
+  const dir = tempDir(`copy-${order}`);
+  const files: string[] = [];
+  const walk = (rel: string) => {
+    for (const e of readdirSync(join(ROOT, rel), { withFileTypes: true })) {
+      if (e.isDirectory()) walk(join(rel, e.name));
+      else files.push(join(rel, e.name));
+    }
+  };
+  walk("sample-data");
+  if (order === "reverse") files.reverse();
+  for (const f of files) {
+    mkdirSync(join(dir, f, ".."), { recursive: true });
+    cpSync(join(ROOT, f), join(dir, f));
+  }
+  mkdirSync(join(dir, "pipelines"));
+  cpSync(join(ROOT, "pipelines/demo.yaml"), join(dir, "pipelines/demo.yaml"));
+  return dir;
+}
+
+/** Every file of a build (but build-info.json, which holds times and paths), as base64 by path. */
+export function outputFiles(dir: string): Record<string, string> {
+  const out: Record<string, string> = {};
+  const walk = (rel: string) => {
+    for (const e of readdirSync(join(dir, rel), { withFileTypes: true })) {
+      const p = rel ? `${rel}/${e.name}` : e.name;
+      if (e.isDirectory()) walk(p);
+      else if (p !== "build-info.json") out[p] = readFileSync(join(dir, p)).toString("base64");
+    }
+  };
+  walk("");
+  return out;
 }

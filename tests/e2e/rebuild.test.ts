@@ -1,43 +1,9 @@
 // Rebuilding in CI: identical bytes, verify --inputs, the lock check, and a full disk.
 import { afterAll, describe, expect, it } from "vitest";
-import { cpSync, mkdirSync, readFileSync, readdirSync, writeFileSync, existsSync } from "node:fs";
+import { readFileSync, writeFileSync, existsSync, readdirSync, statSync } from "node:fs";
 import { spawnSync } from "node:child_process";
 import { join } from "node:path";
-import { ROOT, siftpack, tempDir } from "./cli.js";
-
-/** A copy of the demo pipeline and corpus in a temp dir, its files written in the given order. */
-function demoCopy(order: "forward" | "reverse"): string {
-  const dir = tempDir(`copy-${order}`);
-  const files: string[] = [];
-  const walk = (rel: string) => {
-    for (const e of readdirSync(join(ROOT, rel), { withFileTypes: true })) {
-      if (e.isDirectory()) walk(join(rel, e.name));
-      else files.push(join(rel, e.name));
-    }
-  };
-  walk("sample-data");
-  if (order === "reverse") files.reverse();
-  for (const f of files) {
-    mkdirSync(join(dir, f, ".."), { recursive: true });
-    cpSync(join(ROOT, f), join(dir, f));
-  }
-  mkdirSync(join(dir, "pipelines"));
-  cpSync(join(ROOT, "pipelines/demo.yaml"), join(dir, "pipelines/demo.yaml"));
-  return dir;
-}
-
-function outputFiles(dir: string): Record<string, string> {
-  const out: Record<string, string> = {};
-  const walk = (rel: string) => {
-    for (const e of readdirSync(join(dir, rel), { withFileTypes: true })) {
-      const p = rel ? `${rel}/${e.name}` : e.name;
-      if (e.isDirectory()) walk(p);
-      else if (p !== "build-info.json") out[p] = readFileSync(join(dir, p)).toString("base64");
-    }
-  };
-  walk("");
-  return out;
-}
+import { demoCopy, outputFiles, siftpack, tempDir } from "./cli.js";
 
 describe("identical bytes", () => {
   it("across reruns, worker counts and the order files were created in", () => {
@@ -90,9 +56,23 @@ describe("verify --inputs and the lock check", () => {
   });
 });
 
+/** Disk space a directory takes, in 4 KiB blocks as tmpfs counts it. */
+function blocksOf(dir: string): number {
+  let n = 0;
+  for (const e of readdirSync(dir, { withFileTypes: true })) {
+    const p = join(dir, e.name);
+    n += e.isDirectory() ? 1 + blocksOf(p) : Math.ceil(statSync(p).size / 4096);
+  }
+  return n;
+}
+
 describe("a full disk", () => {
+  // A disk with room for one build and its cache, but not for a second build beside the first.
+  const probe = tempDir("probe");
+  siftpack(["run", "pipelines/demo.yaml", "--out", join(probe, "demo")]);
+  const kib = 4 * (blocksOf(probe) + 16);
   const mnt = tempDir("full");
-  const mounted = spawnSync("mount", ["-t", "tmpfs", "-o", "size=720k", "tmpfs", mnt]).status === 0;
+  const mounted = spawnSync("mount", ["-t", "tmpfs", "-o", `size=${kib}k`, "tmpfs", mnt]).status === 0;
   afterAll(() => {
     if (mounted) spawnSync("umount", [mnt]);
   });

@@ -1,0 +1,74 @@
+// The build cache beside the output: results of per-input-file units, keyed by a hash of
+// everything they depend on, so a rerun (after a crash or a settings change) redoes only what changed.
+import { mkdir, readdir, rename, rm, stat } from "node:fs/promises";
+import { basename, dirname, join } from "node:path";
+import { canonicalJson } from "../lib/canonical-json.js";
+import { hex64, xxh64String } from "../lib/hash.js";
+
+export type UnitKind = "read" | "tokens";
+
+export interface CacheReport {
+  /** Per kind: units reused from the cache and units computed. */
+  read: { reused: number; computed: number };
+  tokens: { reused: number; computed: number; records_reused: number; records_computed: number };
+}
+
+export function cacheDirOf(outDir: string): string {
+  return join(dirname(outDir), `.${basename(outDir)}.cache`);
+}
+
+export class BuildCache {
+  readonly dir: string;
+  /** When false, existing entries are ignored (and replaced): `run --no-cache`. */
+  private readonly reuse: boolean;
+  private readonly used = new Set<string>();
+  readonly report: CacheReport = { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 } };
+
+  constructor(dir: string, reuse: boolean) {
+    this.dir = dir;
+    this.reuse = reuse;
+  }
+
+  async open(): Promise<void> {
+    await mkdir(this.dir, { recursive: true });
+  }
+
+  /** A stable key: XXH64 of the canonical JSON of what the unit's result depends on. */
+  static key(material: unknown): string {
+    return hex64(xxh64String(canonicalJson(material)));
+  }
+
+  path(kind: UnitKind, key: string, ext: string): string {
+    return join(this.dir, `${kind}-${key}${ext}`);
+  }
+
+  /** The path of a complete entry, if there is one and reuse is on. Marks it as used either way. */
+  async lookup(kind: UnitKind, key: string, ext: string): Promise<string | undefined> {
+    const p = this.path(kind, key, ext);
+    this.used.add(basename(p));
+    if (!this.reuse) return undefined;
+    return stat(p).then(
+      () => p,
+      () => undefined,
+    );
+  }
+
+  /** Where to write a new entry; `commit` renames it into place once complete. */
+  pending(kind: UnitKind, key: string, ext: string): { tmp: string; commit: () => Promise<void> } {
+    const p = this.path(kind, key, ext);
+    this.used.add(basename(p));
+    const tmp = `${p}.${process.pid}.tmp`;
+    return { tmp, commit: () => rename(tmp, p) };
+  }
+
+  /** After a successful build: removes entries this build did not use, and stale temporaries. */
+  async prune(): Promise<number> {
+    let removed = 0;
+    for (const name of await readdir(this.dir).catch(() => [] as string[])) {
+      if (this.used.has(name)) continue;
+      await rm(join(this.dir, name), { force: true });
+      removed++;
+    }
+    return removed;
+  }
+}

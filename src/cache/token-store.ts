@@ -1,0 +1,99 @@
+// Cached token ids of one input file's records: a flat binary file of entries
+// [u32 line][u32 count][count × u32 id], in the order the records reached the tokenizer.
+import { closeSync, openSync, readSync, writeSync } from "node:fs";
+
+/** Reads entries in order; `find(line)` skips forward to a line and returns its ids if present. */
+export class TokenStoreReader {
+  private readonly fd: number;
+  private buf = Buffer.alloc(1 << 20);
+  private start = 0;
+  private end = 0;
+  private pos = 0;
+  private eof = false;
+
+  constructor(path: string) {
+    this.fd = openSync(path, "r");
+  }
+
+  /** Makes at least n bytes available at `start`; false at end of file. */
+  private fill(n: number): boolean {
+    if (this.end - this.start >= n) return true;
+    if (this.eof) return false;
+    if (n > this.buf.length) {
+      const bigger = Buffer.alloc(Math.max(n, this.buf.length * 2));
+      this.buf.copy(bigger, 0, this.start, this.end);
+      this.end -= this.start;
+      this.start = 0;
+      this.buf = bigger;
+    } else if (this.start > 0) {
+      this.buf.copy(this.buf, 0, this.start, this.end);
+      this.end -= this.start;
+      this.start = 0;
+    }
+    while (this.end - this.start < n) {
+      const got = readSync(this.fd, this.buf, this.end, this.buf.length - this.end, this.pos);
+      if (got === 0) {
+        this.eof = true;
+        return false;
+      }
+      this.pos += got;
+      this.end += got;
+    }
+    return true;
+  }
+
+  private peekLine(): number | undefined {
+    return this.fill(8) ? this.buf.readUInt32LE(this.start) : undefined;
+  }
+
+  find(line: number): Uint32Array | undefined {
+    for (;;) {
+      const at = this.peekLine();
+      if (at === undefined || at > line) return undefined;
+      const count = this.buf.readUInt32LE(this.start + 4);
+      if (!this.fill(8 + count * 4)) return undefined;
+      const from = this.start + 8;
+      this.start += 8 + count * 4;
+      if (at === line) {
+        const out = new Uint32Array(count);
+        new Uint8Array(out.buffer).set(this.buf.subarray(from, from + count * 4));
+        return out;
+      }
+    }
+  }
+
+  close(): void {
+    closeSync(this.fd);
+  }
+}
+
+export class TokenStoreWriter {
+  private readonly fd: number;
+  private chunk = Buffer.alloc(1 << 20);
+  private used = 0;
+
+  constructor(path: string) {
+    this.fd = openSync(path, "w");
+  }
+
+  add(line: number, ids: Uint32Array): void {
+    const need = 8 + ids.length * 4;
+    if (this.used + need > this.chunk.length) this.flush();
+    if (need > this.chunk.length) this.chunk = Buffer.alloc(need);
+    this.chunk.writeUInt32LE(line, this.used);
+    this.chunk.writeUInt32LE(ids.length, this.used + 4);
+    new Uint8Array(this.chunk.buffer, this.chunk.byteOffset + this.used + 8, ids.length * 4).set(new Uint8Array(ids.buffer, ids.byteOffset, ids.byteLength));
+    this.used += need;
+  }
+
+  private flush(): void {
+    let off = 0;
+    while (off < this.used) off += writeSync(this.fd, this.chunk, off, this.used - off);
+    this.used = 0;
+  }
+
+  close(): void {
+    this.flush();
+    closeSync(this.fd);
+  }
+}

@@ -1,0 +1,96 @@
+// Resuming after a crash, and the per-file cache: a build killed with SIGKILL at several points
+// and run again gives the same bytes as a clean build; changed settings redo only what they affect.
+import { beforeAll, describe, expect, it } from "vitest";
+import { existsSync, readFileSync, writeFileSync, readdirSync } from "node:fs";
+import { join } from "node:path";
+import { demoCopy, outputFiles, siftpack } from "./cli.js";
+
+let clean: Record<string, string>;
+
+beforeAll(() => {
+  const dir = demoCopy();
+  const r = siftpack(["run", join(dir, "pipelines/demo.yaml"), "--no-cache"]);
+  expect(r.code).toBe(0);
+  clean = outputFiles(join(dir, "build/demo"));
+});
+
+describe("resume after SIGKILL", () => {
+  // records:N — when the N-th record reaches the packer; write:N — between the header and the
+  // body of the N-th output file written (a shard half-written in the staging directory).
+  for (const at of ["records:40", "records:450", "write:2", "write:7"]) {
+    it(`killed at ${at}, then run again: identical to a clean build`, () => {
+      const dir = demoCopy();
+      const pipeline = join(dir, "pipelines/demo.yaml");
+      const killed = siftpack(["run", pipeline], { env: { SIFTPACK_CRASH_AT: at } });
+      expect(killed.signal).toBe("SIGKILL");
+      expect(existsSync(join(dir, "build/demo/manifest.json"))).toBe(false);
+      const again = siftpack(["run", pipeline, "--json"]);
+      expect(again.code).toBe(0);
+      const report = JSON.parse(again.stdout).cache;
+      // Files finished before the crash were not read again.
+      if (at === "records:450") expect(report.read.reused).toBeGreaterThan(0);
+      expect(outputFiles(join(dir, "build/demo"))).toEqual(clean);
+      expect(siftpack(["verify", join(dir, "build/demo")]).code).toBe(0);
+      // No temporary or partial file is left behind once a build completes.
+      expect(readdirSync(join(dir, "build")).filter((f) => f.includes("partial"))).toEqual([]);
+      expect(readdirSync(join(dir, "build/.demo.cache")).filter((f) => f.endsWith(".tmp"))).toEqual([]);
+    });
+  }
+});
+
+describe("the cache", () => {
+  const dir = demoCopy();
+  const pipeline = join(dir, "pipelines/demo.yaml");
+  const run = () => {
+    const r = siftpack(["run", pipeline, "--json"]);
+    expect(r.code).toBe(0);
+    return JSON.parse(r.stdout).cache;
+  };
+  const edit = (from: RegExp, to: string) => {
+    const text = readFileSync(pipeline, "utf8");
+    expect(text).toMatch(from);
+    writeFileSync(pipeline, text.replace(from, to));
+  };
+
+  it("reuses every unit on an unchanged rebuild", () => {
+    const first = run();
+    expect(first.read.reused).toBe(0);
+    // The demo's stages between reading and tokenizing (dedup, split) keep the text, so ids are cached.
+    expect(first.tokens.computed).toBeGreaterThan(0);
+    const second = run();
+    expect(second.read).toEqual({ reused: first.read.computed, computed: 0 });
+    expect(second.tokens.computed).toBe(0);
+    expect(second.tokens.records_computed).toBe(0);
+  });
+
+  it("a new block length redoes only packing: reading and token ids come from the cache", () => {
+    edit(/length: \d+/, "length: 256");
+    const c = run();
+    expect(c.read.computed).toBe(0);
+    expect(c.tokens.computed).toBe(0);
+    expect(c.tokens.records_computed).toBe(0);
+  });
+
+  it("a new normalization form redoes reading and tokenizing", () => {
+    edit(/form: NFKC/, "form: NFC");
+    const c = run();
+    expect(c.read.reused).toBe(0);
+    expect(c.tokens.reused).toBe(0);
+    expect(c.tokens.computed).toBeGreaterThan(0);
+  });
+
+  it("a changed input file redoes only that file", () => {
+    run();
+    const notes = join(dir, "sample-data/notes/shift-notes.csv");
+    writeFileSync(notes, readFileSync(notes, "utf8") + `SN-9999,Quayside,driver,"A note added later: the yard points heater at road 4 was reset and tested."\n`);
+    const c = run();
+    expect(c.read.computed).toBe(1);
+    expect(c.read.reused).toBeGreaterThan(1);
+    expect(c.tokens.computed).toBe(1);
+  });
+
+  it("--no-cache recomputes everything", () => {
+    const r = siftpack(["run", pipeline, "--json", "--no-cache"]);
+    expect(JSON.parse(r.stdout).cache.read.reused).toBe(0);
+  });
+});
