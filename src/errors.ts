@@ -13,6 +13,7 @@ export const ERROR_CODES = {
   SP_MANIFEST: "a manifest is missing or unreadable",
   SP_TOKENIZER: "the tokenizer cannot be loaded or used",
   SP_LOCK: "the lock file is unreadable, or the build differs from it",
+  SP_STAGE: "a stage failed on a record",
 } as const;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

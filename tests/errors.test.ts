@@ -14,6 +14,7 @@ const EXIT: Record<ErrorCode, 1 | 2> = {
   SP_MANIFEST: 1,
   SP_TOKENIZER: 1,
   SP_LOCK: 1,
+  SP_STAGE: 1,
 };
 
 describe("error codes", () => {

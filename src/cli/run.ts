@@ -31,7 +31,7 @@ export const runCommand: CommandModule<object, Args> = {
     y
       .positional("file", { type: "string", demandOption: true, describe: "pipeline file (YAML or JSON)" })
       .option("out", { type: "string", describe: "output directory (overrides output.dir)" })
-      .option("workers", { type: "number", describe: "worker threads (the build currently runs on one)" })
+      .option("workers", { type: "number", describe: "threads for the per-record stages and the tokenizer (default: the machine's cores); output is the same for any number" })
       .option("json", { type: "boolean", describe: "print the manifest's counts as JSON" })
       .option("lock", { type: "string", describe: "lock file: written after a build when missing (or without --check)" })
       .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds (--no-cache recomputes them)" })
@@ -47,7 +47,7 @@ export const runCommand: CommandModule<object, Args> = {
     if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
     const onProgress = progressLine();
     try {
-      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress, cache: args.cache });
+      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress, cache: args.cache, workers: args.workers });
       clearProgress();
       if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits, cache }, null, 2) + "\n");
       else process.stdout.write(formatSummary(displayPath(outDir), manifest) + cacheLine(cache));

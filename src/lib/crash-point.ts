@@ -10,3 +10,10 @@ export function crashPoint(name: string): void {
   counts.set(name, n);
   if (at === `${name}:${n}`) process.kill(process.pid, "SIGKILL");
 }
+
+const failOn = process.env.SIFTPACK_FAIL_ON_RECORD;
+
+/** For the worker tests: SIFTPACK_FAIL_ON_RECORD="T-7" makes the per-record stages throw on record T-7. */
+export function failPoint(recordId: string): void {
+  if (failOn !== undefined && failOn === recordId) throw new Error(`injected failure on record ${recordId}`);
+}

@@ -1,69 +1,112 @@
-// Tokenization with a per-input-file cache: ids depend only on a record's text, and the text
-// reaching the tokenizer is fixed by the file's read unit, so the unit's key plus the tokenizer
-// settings identify the ids. Records of one file arrive together and in order, so the cache is
-// read and written sequentially.
+// Tokenization in batches on the worker pool, with a per-input-file cache of token ids: ids depend
+// only on a record's text, and the text reaching the tokenizer is fixed by the file's read unit,
+// so the unit's key plus the tokenizer settings identify them. Records of one file arrive together
+// and in order, so the cache is read (while batching) and written (while emitting) sequentially.
 import { rm } from "node:fs/promises";
 import { BuildCache } from "../cache/build-cache.js";
 import { TokenStoreReader, TokenStoreWriter } from "../cache/token-store.js";
-import { unitId } from "./read-units.js";
-import { tokenizeText, type TokenizeOptions } from "../stages/tokenize.js";
-import { loadEncoding, TokenBuffer } from "../tokenizer/index.js";
+import { unitId, recordFailure } from "./read-units.js";
+import type { TokenizeOptions } from "../stages/tokenize.js";
 import { toolVersion } from "../output/manifest.js";
+import { orderedMap } from "../parallel/pool.js";
+import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
+import { toBatchRecord, unpack, type BatchItem, type BatchOut } from "../parallel/record-batch.js";
 import type { Stage } from "../stages/stage.js";
 import type { DocRecord } from "../types.js";
 
-interface Unit {
-  id: string;
-  reader?: TokenStoreReader;
-  writer: TokenStoreWriter;
-  commit: () => Promise<void>;
-  tmp: string;
+interface Pending {
+  records: DocRecord[];
+  /** Ids found in the cache, by position; undefined where the pool computes them. */
+  cached: (Uint32Array | undefined)[];
+  misses: BatchItem[];
 }
 
-export function cachedTokenize(o: TokenizeOptions, cache: BuildCache, unitKeys: Map<string, string>): Stage {
-  const enc = loadEncoding(o.encoding);
-  const buf = new TokenBuffer(1 << 16);
+const EMPTY: BatchOut = { items: [], counts: {}, tokens: new Uint32Array(0), ends: new Int32Array(0) };
+
+/** `cache` undefined: no caching (a stage before tokenize may change text), batches still run in parallel. */
+export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined, unitKeys: Map<string, string>): Stage {
+  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), read: unitKeys.get(unitId(r.source, r.origin.file)), tokenize: o });
   return async function* tokenize(input, ctx) {
-    let unit: Unit | undefined;
-    const close = async (u: Unit | undefined, complete: boolean) => {
-      if (!u) return;
-      u.reader?.close();
-      u.writer.close();
-      if (complete) await u.commit();
-      else await rm(u.tmp, { force: true });
+    // Lookup side: the cache entry of the file now being batched.
+    let reading: { id: string; reader?: TokenStoreReader } | undefined;
+    // Emitting side: the entry being written for the file now being emitted.
+    let writing: { id: string; writer: TokenStoreWriter; tmp: string; commit: () => Promise<void> } | undefined;
+    const closeWriting = async (complete: boolean) => {
+      if (!writing) return;
+      writing.writer.close();
+      if (complete) await writing.commit();
+      else await rm(writing.tmp, { force: true });
+      writing = undefined;
     };
-    const open = async (r: DocRecord): Promise<Unit> => {
-      const id = unitId(r.source, r.origin.file);
-      const readKey = unitKeys.get(id);
-      const key = BuildCache.key({ unit: "tokens", siftpack: toolVersion(), read: readKey, tokenize: o });
-      const hit = await cache.lookup("tokens", key, ".bin");
-      if (hit) cache.report.tokens.reused++;
-      else cache.report.tokens.computed++;
-      const out = cache.pending("tokens", key, ".bin");
-      return { id, reader: hit ? new TokenStoreReader(hit) : undefined, writer: new TokenStoreWriter(out.tmp), commit: out.commit, tmp: out.tmp };
-    };
+
+    async function* batches(): AsyncGenerator<Pending> {
+      let p: Pending = { records: [], cached: [], misses: [] };
+      let bytes = 0;
+      for await (const r of input) {
+        let hit: Uint32Array | undefined;
+        if (cache) {
+          const id = unitId(r.source, r.origin.file);
+          if (reading?.id !== id) {
+            reading?.reader?.close();
+            const found = await cache.lookup("tokens", keyOf(r), ".bin");
+            if (found) cache.report.tokens.reused++;
+            else cache.report.tokens.computed++;
+            reading = { id, reader: found ? new TokenStoreReader(found) : undefined };
+          }
+          hit = reading.reader?.find(r.origin.line);
+          if (hit) cache.report.tokens.records_reused++;
+          else cache.report.tokens.records_computed++;
+        }
+        p.records.push(r);
+        p.cached.push(hit);
+        if (!hit) {
+          p.misses.push({ k: "rec", r: toBatchRecord(r) });
+          bytes += r.text.length;
+        }
+        if (p.records.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
+          yield p;
+          p = { records: [], cached: [], misses: [] };
+          bytes = 0;
+        }
+      }
+      reading?.reader?.close();
+      if (p.records.length > 0) yield p;
+    }
+
     let complete = false;
     try {
-      for await (const r of input) {
-        const id = unitId(r.source, r.origin.file);
-        if (unit?.id !== id) {
-          await close(unit, true);
-          unit = await open(r);
+      for await (const { item: p, result } of orderedMap(batches(), (p) => (p.misses.length ? pool.submit(p.misses) : Promise.resolve(EMPTY)), BATCHES_AHEAD)) {
+        const computed = [...unpack(result)];
+        let next = 0;
+        for (let i = 0; i < p.records.length; i++) {
+          const r = p.records[i];
+          let tokens = p.cached[i];
+          if (!tokens) {
+            const got = computed[next++];
+            if (got.item.k === "drop") {
+              ctx.drop(r, got.item.reason, got.item.detail);
+              continue;
+            }
+            tokens = got.record!.tokens!;
+          }
+          if (cache) {
+            const id = unitId(r.source, r.origin.file);
+            if (writing?.id !== id) {
+              await closeWriting(true);
+              const out = cache.pending("tokens", keyOf(r), ".bin");
+              writing = { id, writer: new TokenStoreWriter(out.tmp), tmp: out.tmp, commit: out.commit };
+            }
+            writing.writer.add(r.origin.line, tokens);
+          }
+          r.tokens = tokens;
+          yield r;
         }
-        let tokens = unit.reader?.find(r.origin.line);
-        if (tokens) cache.report.tokens.records_reused++;
-        else {
-          tokens = tokenizeText(enc, r.text, o, buf);
-          cache.report.tokens.records_computed++;
-        }
-        unit.writer.add(r.origin.line, tokens);
-        r.tokens = tokens;
-        if (tokens.length === 0) ctx.drop(r, "no-tokens");
-        else yield r;
       }
       complete = true;
+    } catch (err) {
+      throw recordFailure(err);
     } finally {
-      await close(unit, complete);
+      await closeWriting(complete);
     }
   };
 }

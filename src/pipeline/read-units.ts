@@ -8,7 +8,10 @@ import { EventWriter, readEvents, recordEvent, tokensFromText } from "../cache/r
 import { toolVersion } from "../output/manifest.js";
 import type { Ledger } from "../output/ledger.js";
 import type { PipelineConfig, StageEntry } from "./config.js";
-import type { Stage } from "../stages/stage.js";
+import { orderedMap } from "../parallel/pool.js";
+import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
+import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
+import { SiftpackError } from "../errors.js";
 import type { DocRecord, StageContext } from "../types.js";
 
 export interface ReadUnitsOptions {
@@ -19,8 +22,10 @@ export interface ReadUnitsOptions {
   cache: BuildCache;
   ledger: Ledger;
   ctx: StageContext;
-  /** The leading per-record stages, built. */
-  prefix: { entry: StageEntry; stage: Stage }[];
+  /** The leading per-record stages, as entries (for cache keys). */
+  prefix: StageEntry[];
+  /** Runs the prefix stages on batches. */
+  pool: RecordPool;
   /** How many times train sees a record of a weighted source (0 = subsampled away). */
   copiesFor(spec: SourceSpec, r: DocRecord): number;
   copies: WeakMap<DocRecord, number>;
@@ -51,7 +56,7 @@ export async function* readUnits(o: ReadUnitsOptions): AsyncGenerator<DocRecord>
         // Default ids count rows across the source's files; explicit ids must be unique across them.
         first_row: mapper.rows,
         ids_before: mapper.idsDigest,
-        prefix: o.prefix.map((p) => ({ [p.entry.name]: p.entry.options })),
+        prefix: o.prefix.map((e) => ({ [e.name]: e.options })),
       });
       o.unitKeys.set(unitId(spec.name, input.path), key);
       const hit = await o.cache.lookup("read", key, ".jsonl.gz");
@@ -72,50 +77,69 @@ async function* computeUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: Recor
   const writer = new EventWriter(out.tmp);
   const rowsBefore = mapper.rows;
   let complete = false;
+  // Rows are read ahead into batches for the prefix stages (in worker threads when there are
+  // several); every fate is recorded when its turn comes in input order, so the ledger and the
+  // cache entry are the same whatever the number of threads.
+  async function* batches(): AsyncGenerator<BatchItem[]> {
+    let batch: BatchItem[] = [];
+    let bytes = 0;
+    for await (const item of readSourceFile(spec, o.baseDir, file, mapper)) {
+      if (item.kind === "bad") batch.push({ k: "bad", entry: item.entry });
+      else {
+        const r: DocRecord = { id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: nextSeq() };
+        if (o.copiesFor(spec, r) === 0) batch.push({ k: "drop", r: toBatchRecord(r), reason: "subsampled", detail: { weight: spec.weight } });
+        else batch.push({ k: "rec", r: toBatchRecord(r) });
+        bytes += item.text.length;
+      }
+      if (batch.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
+        yield batch;
+        batch = [];
+        bytes = 0;
+      }
+    }
+    if (batch.length > 0) yield batch;
+  }
   try {
-    async function* rows(): AsyncGenerator<DocRecord> {
-      for await (const item of readSourceFile(spec, o.baseDir, file, mapper)) {
+    for await (const { result } of orderedMap(batches(), (b) => o.pool.submit(b), BATCHES_AHEAD)) {
+      for (const [name, n] of Object.entries(result.counts)) o.ctx.count(name, n);
+      for (const { item, record } of unpack(result)) {
         await ledger.flush();
         await writer.drain();
         o.progress();
-        if (item.kind === "bad") {
+        if (item.k === "bad") {
           await ledger.quarantined(item.entry);
           writer.add({ k: "bad", entry: item.entry });
-          continue;
+        } else if (item.k === "drop") {
+          o.ctx.drop(fromBatchRecord(item.r), item.reason, item.detail);
+          writer.add({ k: "drop", id: item.r.id, source: item.r.source, file: item.r.file, line: item.r.line, reason: item.reason, ...(item.detail ? { detail: item.detail } : {}) });
+        } else {
+          const r = record!;
+          const n = o.copiesFor(spec, r);
+          if (n !== 1) o.copies.set(r, n);
+          writer.add(recordEvent(r));
+          yield r;
         }
-        const r: DocRecord = { id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: nextSeq() };
-        const n = o.copiesFor(spec, r);
-        if (n === 0) {
-          unitCtx.drop(r, "subsampled", { weight: spec.weight });
-          continue;
-        }
-        if (n !== 1) o.copies.set(r, n);
-        yield r;
       }
-    }
-    const unitCtx: StageContext = {
-      ...o.ctx,
-      drop(r, reason, detail) {
-        o.ctx.drop(r, reason, detail);
-        writer.add({ k: "drop", id: r.id, source: r.source, file: r.origin.file, line: r.origin.line, reason, ...(detail ? { detail } : {}) });
-      },
-    };
-    let stream: AsyncIterable<DocRecord> = rows();
-    for (const p of o.prefix) stream = p.stage(stream, unitCtx);
-    for await (const r of stream) {
-      writer.add(recordEvent(r));
-      yield r;
     }
     writer.add({ k: "end", rows: mapper.rows - rowsBefore });
     await writer.close();
     await out.commit();
     complete = true;
+  } catch (err) {
+    throw recordFailure(err);
   } finally {
     if (!complete) {
       writer.destroy();
       await rm(out.tmp, { force: true });
     }
   }
+}
+
+/** A stage that threw on a record (in a worker or here) becomes an error naming the record. */
+export function recordFailure(err: unknown): unknown {
+  const where = (err as { where?: { file: string; line: number; source: string; id: string } })?.where;
+  if (!where || err instanceof SiftpackError) return err;
+  return new SiftpackError("SP_STAGE", `a stage failed on record "${where.id}" (source ${where.source}, ${where.file}:${where.line}): ${(err as Error).message}`, { cause: err });
 }
 
 async function* replayUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: RecordMapper, path: string, nextSeq: () => number): AsyncGenerator<DocRecord> {

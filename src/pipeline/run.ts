@@ -6,7 +6,10 @@ import { createPacker, type Packer, type PackOptions } from "../stages/pack.js";
 import type { TokenizeOptions } from "../stages/tokenize.js";
 import { listFiles } from "../sources/source.js";
 import { readUnits } from "./read-units.js";
-import { cachedTokenize } from "./cached-tokenize.js";
+import { parallelTokenize } from "./cached-tokenize.js";
+import { recordPool, type RecordPool } from "../parallel/record-pool.js";
+import { availableParallelism } from "node:os";
+import type { StageEntry } from "./config.js";
 import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { Ledger } from "../output/ledger.js";
@@ -24,6 +27,8 @@ export interface RunOptions {
   log: Logger;
   /** Reuse cached per-file results (default true); false recomputes and refreshes them. */
   cache?: boolean;
+  /** Threads for the per-record stages and the tokenizer (default: the machine's cores). */
+  workers?: number;
   /** Called about twice a second with running counts (for a progress line). */
   onProgress?: (p: { read: number; kept: number; dropped: number; quarantined: number }) => void;
 }
@@ -92,14 +97,18 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     }
   };
 
-  // The leading per-record stages run (and are cached) per input file; the rest see one stream.
-  const built = [];
-  for (const entry of config.stages) {
-    if (entry.name === "pack") continue;
-    built.push({ entry, def: STAGES[entry.name], stage: await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir }) });
-  }
+  // The leading per-record stages run (and are cached) per input file, in batches on a pool of
+  // worker threads; the rest see one stream, the tokenizer again in batches on a pool.
+  const entries = config.stages.filter((e) => e.name !== "pack");
   let prefixLength = 0;
-  while (prefixLength < built.length && built[prefixLength].def.perRecord) prefixLength++;
+  while (prefixLength < entries.length && STAGES[entries[prefixLength].name].perRecord) prefixLength++;
+  const threads = Math.max(1, opts.workers ?? availableParallelism());
+  const pools: RecordPool[] = [];
+  const poolFor = (stages: StageEntry[]) => {
+    const pool = recordPool({ stages, baseDir: p.baseDir, seed: config.seed }, threads);
+    pools.push(pool);
+    return pool;
+  };
   const cache = new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
   const unitKeys = new Map<string, string>();
@@ -110,18 +119,24 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     cache,
     ledger,
     ctx,
-    prefix: built.slice(0, prefixLength),
+    prefix: entries.slice(0, prefixLength),
+    pool: poolFor(entries.slice(0, prefixLength)),
     copiesFor: (spec, r) => (spec.weight === 1 ? 1 : copiesFor(spec.weight, `${r.source}\u0000${r.id}`, config.seed)),
     copies,
     unitKeys,
     progress,
   });
-  for (let i = prefixLength; i < built.length; i++) {
-    const { entry, stage } = built[i];
-    // Token ids are cached per input file when nothing between the file's read unit and the
-    // tokenizer can change a record's text.
-    const cacheTokens = entry.name === "tokenize" && built.slice(prefixLength, i).every((b) => b.def.keepsText);
-    stream = (cacheTokens ? cachedTokenize(entry.options as TokenizeOptions, cache, unitKeys) : stage)(stream, ctx);
+  for (let i = prefixLength; i < entries.length; i++) {
+    const entry = entries[i];
+    if (entry.name === "tokenize") {
+      // Token ids are cached per input file when nothing between the file's read unit and the
+      // tokenizer can change a record's text.
+      const keepsText = entries.slice(prefixLength, i).every((e) => STAGES[e.name].keepsText);
+      stream = parallelTokenize(entry.options as TokenizeOptions, poolFor([entry]), keepsText ? cache : undefined, unitKeys)(stream, ctx);
+    } else {
+      const stage = await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir });
+      stream = stage(stream, ctx);
+    }
   }
 
   const analyzers: { key: string; analyzer: Analyzer }[] = [];
@@ -176,6 +191,8 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     if (typeof code === "string" && /^E[A-Z]+$/.test(code))
       throw new SiftpackError("SP_OUTPUT", `writing ${staging} failed: ${describeSystemError(err)}`, { cause: err });
     throw err;
+  } finally {
+    for (const pool of pools) await pool.close();
   }
 
   const c = ledger.counts;

@@ -9,5 +9,8 @@ import type { StageDefinition } from "./stage.js";
 
 export const STAGES: Record<string, StageDefinition> = { normalize, filter, dedup, split, tokenize, pack };
 
+/** The stages siftpack ships (a worker thread can rebuild these; stages registered at run time it cannot). */
+export const BUILTIN_STAGES: ReadonlySet<string> = new Set(Object.keys(STAGES));
+
 export type { Stage, StageDefinition, StageEnv } from "./stage.js";
 export { defineStage } from "./stage.js";
