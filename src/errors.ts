@@ -14,6 +14,7 @@ export const ERROR_CODES = {
   SP_TOKENIZER: "the tokenizer cannot be loaded or used",
   SP_LOCK: "the lock file is unreadable, or the build differs from it",
   SP_STAGE: "a stage failed on a record",
+  SP_OVERLAP: "overlap between splits is above the allowed rate",
 } as const;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

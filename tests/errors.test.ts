@@ -15,6 +15,7 @@ const EXIT: Record<ErrorCode, 1 | 2> = {
   SP_TOKENIZER: 1,
   SP_LOCK: 1,
   SP_STAGE: 1,
+  SP_OVERLAP: 1,
 };
 
 describe("error codes", () => {

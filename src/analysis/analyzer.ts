@@ -1,6 +1,8 @@
 // Analyzers see every kept record after packing decisions and add figures to the manifest.
 import type { DocRecord, Logger } from "../types.js";
 import type { PipelineConfig } from "../pipeline/config.js";
+import { overlapAnalyzer } from "./overlap.js";
+import { tokenStatsAnalyzer } from "./token-stats.js";
 
 export interface AnalyzerContext {
   config: PipelineConfig;
@@ -23,4 +25,4 @@ export interface AnalyzerFactory {
 }
 
 /** Analyzers run on every build; each decides from the configuration whether it applies. */
-export const ANALYZERS: AnalyzerFactory[] = [];
+export const ANALYZERS: AnalyzerFactory[] = [tokenStatsAnalyzer, overlapAnalyzer];

@@ -8,7 +8,7 @@ import { hex64, xxh64String } from "../lib/hash.js";
 export type UnitKind = "read" | "tokens";
 
 export interface CacheReport {
-  /** Per kind: units reused from the cache and units computed. */
+  /** Per kind: units (input files) whose cache entry was found or not; for tokens also records. */
   read: { reused: number; computed: number };
   tokens: { reused: number; computed: number; records_reused: number; records_computed: number };
 }

@@ -11,7 +11,8 @@ export type UnitEvent =
   | { k: "bad"; entry: QuarantineEntry }
   | { k: "drop"; id: string; source: string; file: string; line: number; reason: string; detail?: Record<string, unknown> }
   | { k: "rec"; id: string; source: string; file: string; line: number; text: string; meta: Record<string, unknown>; tokens?: string }
-  | { k: "end"; rows: number };
+  /** Last: rows read from the file, and the stage counters the prefix stages raised on them. */
+  | { k: "end"; rows: number; counts: Record<string, number> };
 
 export function tokensToText(t: Uint32Array): string {
   return Buffer.from(t.buffer, t.byteOffset, t.byteLength).toString("base64");

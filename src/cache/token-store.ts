@@ -1,6 +1,11 @@
 // Cached token ids of one input file's records: a flat binary file of entries
-// [u32 line][u32 count][count × u32 id], in the order the records reached the tokenizer.
+// [u32 line][u32 count][u64 xxh64 of the text][count × u32 id], in the order the records reached
+// the tokenizer. An entry is used only if the text still hashes the same, so stages that change
+// text (or a changed input file) invalidate exactly the records whose text changed.
 import { closeSync, openSync, readSync, writeSync } from "node:fs";
+
+/** Bytes before an entry's ids: line, count, text hash. */
+const HEAD = 16;
 
 /** Reads entries in order; `find(line)` skips forward to a line and returns its ids if present. */
 export class TokenStoreReader {
@@ -43,18 +48,20 @@ export class TokenStoreReader {
   }
 
   private peekLine(): number | undefined {
-    return this.fill(8) ? this.buf.readUInt32LE(this.start) : undefined;
+    return this.fill(HEAD) ? this.buf.readUInt32LE(this.start) : undefined;
   }
 
-  find(line: number): Uint32Array | undefined {
+  find(line: number, textHash: bigint): Uint32Array | undefined {
     for (;;) {
       const at = this.peekLine();
       if (at === undefined || at > line) return undefined;
       const count = this.buf.readUInt32LE(this.start + 4);
-      if (!this.fill(8 + count * 4)) return undefined;
-      const from = this.start + 8;
-      this.start += 8 + count * 4;
+      if (!this.fill(HEAD + count * 4)) return undefined;
+      const hash = this.buf.readBigUInt64LE(this.start + 8);
+      const from = this.start + HEAD;
+      this.start += HEAD + count * 4;
       if (at === line) {
+        if (hash !== textHash) return undefined;
         const out = new Uint32Array(count);
         new Uint8Array(out.buffer).set(this.buf.subarray(from, from + count * 4));
         return out;
@@ -76,13 +83,14 @@ export class TokenStoreWriter {
     this.fd = openSync(path, "w");
   }
 
-  add(line: number, ids: Uint32Array): void {
-    const need = 8 + ids.length * 4;
+  add(line: number, textHash: bigint, ids: Uint32Array): void {
+    const need = HEAD + ids.length * 4;
     if (this.used + need > this.chunk.length) this.flush();
     if (need > this.chunk.length) this.chunk = Buffer.alloc(need);
     this.chunk.writeUInt32LE(line, this.used);
     this.chunk.writeUInt32LE(ids.length, this.used + 4);
-    new Uint8Array(this.chunk.buffer, this.chunk.byteOffset + this.used + 8, ids.length * 4).set(new Uint8Array(ids.buffer, ids.byteOffset, ids.byteLength));
+    this.chunk.writeBigUInt64LE(textHash, this.used + 8);
+    new Uint8Array(this.chunk.buffer, this.chunk.byteOffset + this.used + HEAD, ids.length * 4).set(new Uint8Array(ids.buffer, ids.byteOffset, ids.byteLength));
     this.used += need;
   }
 

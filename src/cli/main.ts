@@ -33,6 +33,7 @@ export async function main(argv: string[]): Promise<number> {
       .command(statsCommand)
       .command(encodeCommand)
       .command((await import("./inspect.js")).inspectCommand)
+      .command((await import("./overlap.js")).overlapCommand)
       .demandCommand(1, "name a command")
       .strict()
       .version(toolVersion())

@@ -20,8 +20,8 @@ interface Args {
 }
 
 function cacheLine(c: CacheReport): string {
-  const files = (x: { reused: number; computed: number }) => `${x.reused} of ${x.reused + x.computed} files reused`;
-  return `cache: read ${files(c.read)}; tokens ${c.tokens.reused + c.tokens.computed ? files(c.tokens) : "not cached (a stage before tokenize may change text)"}\n`;
+  const t = c.tokens;
+  return `cache: read ${c.read.reused} of ${c.read.reused + c.read.computed} files reused; token ids of ${t.records_reused} of ${t.records_reused + t.records_computed} records reused\n`;
 }
 
 export const runCommand: CommandModule<object, Args> = {

@@ -1,7 +1,8 @@
 // `siftpack stats DIR`: documents, tokens, blocks, padding and cuts per split; document lengths; record fates per source.
 import type { CommandModule } from "yargs";
 import { readManifest } from "../output/manifest.js";
-import { lengthTable, recordsLine, splitTable, table } from "./summary.js";
+import { lengthTable, pct, recordsLine, splitTable, table } from "./summary.js";
+import type { GroupStats } from "../analysis/token-stats.js";
 
 interface Args {
   dir: string;
@@ -19,7 +20,7 @@ export const statsCommand: CommandModule<object, Args> = {
       const splits = Object.fromEntries(
         Object.entries(m.splits).map(([k, s]) => [k, { ...s, shards: s.shards.length, padding_fraction: s.padding_fraction ?? (s.blocks ? s.padding_tokens / (s.blocks * m.length) : 0) }]),
       );
-      process.stdout.write(JSON.stringify({ length: m.length, strategy: m.strategy, tokenizer: m.tokenizer.name, splits, records: m.records }, null, 2) + "\n");
+      process.stdout.write(JSON.stringify({ length: m.length, strategy: m.strategy, tokenizer: m.tokenizer.name, splits, records: m.records, token_stats: m.token_stats }, null, 2) + "\n");
       return;
     }
     let out = `${args.dir}: ${m.tokenizer.name}, blocks of ${m.length} tokens (${m.dtype}), ${m.strategy} packing, build ${m.build_hash}\n\n`;
@@ -29,9 +30,21 @@ export const statsCommand: CommandModule<object, Args> = {
     const lengths = lengthTable(m);
     if (lengths) out += "\ndocument lengths in tokens (end-of-text included), documents per split\n" + lengths;
     out += "\n" + recordsLine(m) + "\n";
-    const rows: (string | number)[][] = [["source", "read", "kept", "dropped", "quarantined"]];
-    for (const [name, s] of Object.entries(m.records.by_source)) rows.push([name, s.read, s.kept, s.dropped, s.quarantined]);
+    const allTokens = Object.values(m.records.by_source).reduce((a, s) => a + (s.tokens ?? 0), 0);
+    const rows: (string | number)[][] = [["source", "read", "kept", "dropped", "quarantined", "tokens", "token share"]];
+    for (const [name, s] of Object.entries(m.records.by_source)) rows.push([name, s.read, s.kept, s.dropped, s.quarantined, s.tokens ?? 0, pct(s.tokens ?? 0, allTokens)]);
     out += table(rows);
+    const ts = m.token_stats as Record<string, { all: GroupStats; by_source: Record<string, GroupStats> }> | undefined;
+    if (ts) {
+      out += "\ntokens per split and source (documents as kept, before repeats by weight)\n";
+      const t: (string | number)[][] = [["split", "source", "documents", "tokens", "targets", "bytes/token", "mean", "p50", "p90", "p99", "max"]];
+      for (const [split, g] of Object.entries(ts)) {
+        for (const [source, s] of [["all", g.all] as const, ...Object.entries(g.by_source)]) {
+          t.push([split, source, s.documents, s.tokens, s.target_tokens, s.bytes_per_token.toFixed(2), s.mean_tokens.toFixed(1), s.percentiles.p50, s.percentiles.p90, s.percentiles.p99, s.percentiles.max]);
+        }
+      }
+      out += table(t);
+    }
     process.stdout.write(out);
   },
 };

@@ -1,11 +1,13 @@
 // Tokenization in batches on the worker pool, with a per-input-file cache of token ids: ids depend
-// only on a record's text, and the text reaching the tokenizer is fixed by the file's read unit,
-// so the unit's key plus the tokenizer settings identify them. Records of one file arrive together
-// and in order, so the cache is read (while batching) and written (while emitting) sequentially.
+// only on a record's text and the tokenizer settings, so each cached entry carries the XXH64 of the
+// text it came from and is used only while the text is the same. Records of one file arrive
+// together and in order, so the cache is read (while batching) and written (while emitting)
+// sequentially.
 import { rm } from "node:fs/promises";
 import { BuildCache } from "../cache/build-cache.js";
 import { TokenStoreReader, TokenStoreWriter } from "../cache/token-store.js";
 import { unitId, recordFailure } from "./read-units.js";
+import { xxh64String } from "../lib/hash.js";
 import type { TokenizeOptions } from "../stages/tokenize.js";
 import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
@@ -23,9 +25,9 @@ interface Pending {
 
 const EMPTY: BatchOut = { items: [], counts: {}, tokens: new Uint32Array(0), ends: new Int32Array(0) };
 
-/** `cache` undefined: no caching (a stage before tokenize may change text), batches still run in parallel. */
-export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined, unitKeys: Map<string, string>): Stage {
-  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), read: unitKeys.get(unitId(r.source, r.origin.file)), tokenize: o });
+/** `cache` undefined: no caching; batches still run in parallel. */
+export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined): Stage {
+  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, tokenize: o });
   return async function* tokenize(input, ctx) {
     // Lookup side: the cache entry of the file now being batched.
     let reading: { id: string; reader?: TokenStoreReader } | undefined;
@@ -53,7 +55,7 @@ export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: Bu
             else cache.report.tokens.computed++;
             reading = { id, reader: found ? new TokenStoreReader(found) : undefined };
           }
-          hit = reading.reader?.find(r.origin.line);
+          hit = reading.reader?.find(r.origin.line, xxh64String(r.text));
           if (hit) cache.report.tokens.records_reused++;
           else cache.report.tokens.records_computed++;
         }
@@ -96,7 +98,7 @@ export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: Bu
               const out = cache.pending("tokens", keyOf(r), ".bin");
               writing = { id, writer: new TokenStoreWriter(out.tmp), tmp: out.tmp, commit: out.commit };
             }
-            writing.writer.add(r.origin.line, tokens);
+            writing.writer.add(r.origin.line, xxh64String(r.text), tokens);
           }
           r.tokens = tokens;
           yield r;

@@ -3,7 +3,7 @@ import { field, list, num, obj, str, literal, type Infer, type Issue, type Path,
 import { STAGES } from "../stages/index.js";
 import { closest } from "../lib/did-you-mean.js";
 
-export const FORMATS = ["jsonl", "json", "csv", "tsv", "text"] as const;
+export const FORMATS = ["jsonl", "json", "csv", "tsv", "text", "parquet"] as const;
 
 const sourceSchema = obj({
   name: field(str({ nonEmpty: true }), { required: true }),
@@ -88,5 +88,8 @@ export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
       });
     }
     if (tok >= 0 && splitAt > tok) issues.push({ path: ["stages", splitAt, "split"], atKey: true, message: `"split" must come before "tokenize"` });
+    const decon = at("decontaminate");
+    if (decon >= 0 && decon < splitAt)
+      issues.push({ path: ["stages", decon, "decontaminate"], atKey: true, message: `"decontaminate" must come after "split": it checks training records only, and before split every record counts as training` });
   }
 }

@@ -27,10 +27,7 @@ export interface ReadUnitsOptions {
   /** Runs the prefix stages on batches. */
   pool: RecordPool;
   /** How many times train sees a record of a weighted source (0 = subsampled away). */
-  copiesFor(spec: SourceSpec, r: DocRecord): number;
-  copies: WeakMap<DocRecord, number>;
-  /** The read-unit key of each input file, for caches further down that depend on it. */
-  unitKeys: Map<string, string>;
+  copiesOf(r: DocRecord): number;
   progress(): void;
 }
 
@@ -58,7 +55,6 @@ export async function* readUnits(o: ReadUnitsOptions): AsyncGenerator<DocRecord>
         ids_before: mapper.idsDigest,
         prefix: o.prefix.map((e) => ({ [e.name]: e.options })),
       });
-      o.unitKeys.set(unitId(spec.name, input.path), key);
       const hit = await o.cache.lookup("read", key, ".jsonl.gz");
       if (hit) {
         o.cache.report.read.reused++;
@@ -76,6 +72,7 @@ async function* computeUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: Recor
   const out = o.cache.pending("read", key, ".jsonl.gz");
   const writer = new EventWriter(out.tmp);
   const rowsBefore = mapper.rows;
+  const counts: Record<string, number> = {};
   let complete = false;
   // Rows are read ahead into batches for the prefix stages (in worker threads when there are
   // several); every fate is recorded when its turn comes in input order, so the ledger and the
@@ -87,7 +84,7 @@ async function* computeUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: Recor
       if (item.kind === "bad") batch.push({ k: "bad", entry: item.entry });
       else {
         const r: DocRecord = { id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: nextSeq() };
-        if (o.copiesFor(spec, r) === 0) batch.push({ k: "drop", r: toBatchRecord(r), reason: "subsampled", detail: { weight: spec.weight } });
+        if (o.copiesOf(r) === 0) batch.push({ k: "drop", r: toBatchRecord(r), reason: "subsampled", detail: { weight: spec.weight } });
         else batch.push({ k: "rec", r: toBatchRecord(r) });
         bytes += item.text.length;
       }
@@ -101,7 +98,10 @@ async function* computeUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: Recor
   }
   try {
     for await (const { result } of orderedMap(batches(), (b) => o.pool.submit(b), BATCHES_AHEAD)) {
-      for (const [name, n] of Object.entries(result.counts)) o.ctx.count(name, n);
+      for (const [name, n] of Object.entries(result.counts)) {
+        o.ctx.count(name, n);
+        counts[name] = (counts[name] ?? 0) + n;
+      }
       for (const { item, record } of unpack(result)) {
         await ledger.flush();
         await writer.drain();
@@ -114,14 +114,12 @@ async function* computeUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: Recor
           writer.add({ k: "drop", id: item.r.id, source: item.r.source, file: item.r.file, line: item.r.line, reason: item.reason, ...(item.detail ? { detail: item.detail } : {}) });
         } else {
           const r = record!;
-          const n = o.copiesFor(spec, r);
-          if (n !== 1) o.copies.set(r, n);
           writer.add(recordEvent(r));
           yield r;
         }
       }
     }
-    writer.add({ k: "end", rows: mapper.rows - rowsBefore });
+    writer.add({ k: "end", rows: mapper.rows - rowsBefore, counts });
     await writer.close();
     await out.commit();
     complete = true;
@@ -162,13 +160,12 @@ async function* replayUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: Record
         const r: DocRecord = { id: e.id, source: e.source, text: e.text, meta: e.meta, origin: { file: e.file, line: e.line }, seq: nextSeq() };
         if (e.tokens !== undefined) r.tokens = tokensFromText(e.tokens);
         ids.push(e.id);
-        const n = o.copiesFor(spec, r);
-        if (n !== 1) o.copies.set(r, n);
         yield r;
         break;
       }
       case "end":
         mapper.replay(e.rows, ids);
+        for (const [name, n] of Object.entries(e.counts)) o.ctx.count(name, n);
         return;
     }
   }

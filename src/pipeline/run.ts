@@ -85,8 +85,13 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     count: (name, n = 1) => (stageCounts[name] = (stageCounts[name] ?? 0) + n),
   };
 
-  // Sources, in file order; mixture weights decide how many copies of a record train sees.
-  const copies = new WeakMap<DocRecord, number>();
+  // Mixture weights decide how many copies of a record train sees: a function of source, id and
+  // seed, so it survives stages that spill records to disk and read them back.
+  const weights = new Map(config.sources.map((s) => [s.name, s.weight]));
+  const copiesOf = (r: DocRecord) => {
+    const w = weights.get(r.source) ?? 1;
+    return w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed);
+  };
   let lastProgress = 0;
   const progress = () => {
     const now = Date.now();
@@ -111,7 +116,6 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   };
   const cache = new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
-  const unitKeys = new Map<string, string>();
   let stream: AsyncIterable<DocRecord> = readUnits({
     config,
     baseDir: p.baseDir,
@@ -121,18 +125,13 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     ctx,
     prefix: entries.slice(0, prefixLength),
     pool: poolFor(entries.slice(0, prefixLength)),
-    copiesFor: (spec, r) => (spec.weight === 1 ? 1 : copiesFor(spec.weight, `${r.source}\u0000${r.id}`, config.seed)),
-    copies,
-    unitKeys,
+    copiesOf,
     progress,
   });
   for (let i = prefixLength; i < entries.length; i++) {
     const entry = entries[i];
     if (entry.name === "tokenize") {
-      // Token ids are cached per input file when nothing between the file's read unit and the
-      // tokenizer can change a record's text.
-      const keepsText = entries.slice(prefixLength, i).every((e) => STAGES[e.name].keepsText);
-      stream = parallelTokenize(entry.options as TokenizeOptions, poolFor([entry]), keepsText ? cache : undefined, unitKeys)(stream, ctx);
+      stream = parallelTokenize(entry.options as TokenizeOptions, poolFor([entry]), cache)(stream, ctx);
     } else {
       const stage = await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir });
       stream = stage(stream, ctx);
@@ -169,7 +168,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     for await (const r of stream) {
       const split = r.split ?? "train";
       // Repetition serves the training mixture only; held-out text is seen once.
-      const n = split === "train" ? (copies.get(r) ?? 1) : 1;
+      const n = split === "train" ? copiesOf(r) : 1;
       crashPoint("records");
       ledger.kept(r, n !== 1 ? { copies: n } : {});
       const { writer, packer } = writerFor(split);

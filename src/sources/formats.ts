@@ -3,12 +3,13 @@
 import { readCsv } from "./csv.js";
 import { readJson } from "./json.js";
 import { readJsonl } from "./jsonl.js";
+import { readParquet } from "./parquet.js";
 import type { Reader } from "./reader.js";
 import { readText } from "./text.js";
 
-export type Format = "jsonl" | "json" | "csv" | "tsv" | "text";
+export type Format = "jsonl" | "json" | "csv" | "tsv" | "text" | "parquet";
 
-export const FORMATS: readonly Format[] = ["jsonl", "json", "csv", "tsv", "text"];
+export const FORMATS: readonly Format[] = ["jsonl", "json", "csv", "tsv", "text", "parquet"];
 
 const readTsv: Reader = (file, options = {}) => readCsv(file, { ...options, delimiter: "\t" });
 
@@ -18,6 +19,7 @@ const READERS: Record<Format, Reader> = {
   csv: readCsv,
   tsv: readTsv,
   text: readText,
+  parquet: readParquet,
 };
 
 export function readerFor(format: Format): Reader {

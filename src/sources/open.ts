@@ -1,13 +1,13 @@
-// Opens an input file as a lazy stream of byte chunks, gunzipping `.gz`; read failures become InputReadError.
+// Opens an input file as a lazy stream of byte chunks, decompressing `.gz` and `.zst`; read failures become InputReadError.
 
 import { open } from "node:fs/promises";
-import { pipeline, type Readable } from "node:stream";
+import { pipeline, Transform, type Readable } from "node:stream";
 import { createGunzip } from "node:zlib";
+import { Decompress } from "fzstd";
 import { SiftpackError, describeSystemError } from "../errors.js";
 
-/** Compressed formats recognised by extension but not readable yet (node:zlib in Node 20 has no zstd, xz or bzip2). */
+/** Compressed formats recognised by extension but not readable (node:zlib in Node 20 has no xz or bzip2). */
 const UNSUPPORTED: Record<string, string> = {
-  ".zst": "zstd",
   ".xz": "xz",
   ".bz2": "bzip2",
 };
@@ -20,17 +20,18 @@ export class InputReadError extends Error {
   }
 }
 
-export type Compression = "none" | "gzip";
+export type Compression = "none" | "gzip" | "zstd";
 
 /** Compression implied by the file name; throws SP_INPUT_FORMAT for compressions that cannot be read. */
 export function compressionOf(file: string): Compression {
   const lower = file.toLowerCase();
   if (lower.endsWith(".gz")) return "gzip";
+  if (lower.endsWith(".zst")) return "zstd";
   for (const [ext, name] of Object.entries(UNSUPPORTED)) {
     if (lower.endsWith(ext)) {
       throw new SiftpackError(
         "SP_INPUT_FORMAT",
-        `${file}: ${name}-compressed input (${ext}) is not supported yet; decompress it first or recompress it with gzip`,
+        `${file}: ${name}-compressed input (${ext}) is not supported yet; decompress it first or recompress it with gzip or zstd`,
       );
     }
   }
@@ -53,13 +54,50 @@ export async function openInput(file: string): Promise<Readable> {
   const raw = handle.createReadStream({ highWaterMark: 64 * 1024 });
   if (compression === "none") return raw;
   // pipeline() tears down both ends if either fails or the consumer stops early, so the fd never leaks.
-  return pipeline(raw, createGunzip(), () => {});
+  return pipeline(raw, compression === "gzip" ? createGunzip() : createZstdDecoder(), () => {});
+}
+
+/** A zstd-decoding error; its message is shown to users as "corrupt zstd data: …". */
+class ZstdDataError extends Error {
+  readonly code = "ZSTD_DATA";
+}
+
+/**
+ * Streaming zstd decompression. Node 20's zlib has no zstd, so this uses fzstd, a pure-JS
+ * decoder (no native build): every frame of the file is decoded in turn, as chunks arrive.
+ */
+export function createZstdDecoder(): Transform {
+  let decoder: Decompress;
+  const transform = new Transform({
+    transform(chunk: Buffer, _enc, done) {
+      try {
+        decoder.push(chunk);
+        done();
+      } catch (err) {
+        done(new ZstdDataError((err as Error).message, { cause: err }));
+      }
+    },
+    flush(done) {
+      try {
+        // An empty final push checks that the last frame is complete ("unexpected EOF" otherwise).
+        decoder.push(new Uint8Array(0), true);
+        done();
+      } catch (err) {
+        done(new ZstdDataError((err as Error).message, { cause: err }));
+      }
+    },
+  });
+  decoder = new Decompress((data) => {
+    if (data.length > 0) transform.push(Buffer.from(data.buffer, data.byteOffset, data.length));
+  });
+  return transform;
 }
 
 /** What a failed read means to a user. zlib errors carry Z_* codes; everything else is an OS error. */
 export function describeReadError(err: unknown): string {
   const code = (err as NodeJS.ErrnoException)?.code;
   if (typeof code === "string" && code.startsWith("Z_")) return `corrupt gzip data: ${(err as Error).message}`;
+  if (err instanceof ZstdDataError) return `corrupt zstd data: ${err.message}`;
   return `read error: ${describeSystemError(err)}`;
 }
 

@@ -24,8 +24,6 @@ export interface StageDefinition<O = any> {
    * across records: a run of such stages at the head of the pipeline is cached per input file.
    */
   perRecord?: boolean;
-  /** Never changes a record's text, so token ids cached for a text stay valid across the stage. */
-  keepsText?: boolean;
   /** Extra lines for `siftpack plan` (derived settings). */
   explain?(options: O): Record<string, unknown>;
 }

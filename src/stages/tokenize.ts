@@ -26,7 +26,6 @@ export default defineStage({
   name: "tokenize",
   summary: "byte-level BPE token ids",
   perRecord: true,
-  keepsText: true,
   options: tokenizeOptions,
   async create(o) {
     const enc = await loadEncoding(o.encoding);

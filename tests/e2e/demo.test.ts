@@ -48,12 +48,16 @@ describe("demo build", () => {
     }
     // The demo has deliberate duplicates, junk and one malformed line; each stage had work.
     expect(r.by_reason.duplicate).toBeGreaterThan(0);
-    expect(r.by_reason["too-few-words"]).toBeGreaterThan(0);
+    expect(r.by_reason["filter:min_words"]).toBeGreaterThan(0);
     expect(r.quarantined).toBeGreaterThan(0);
     const quarantine = readFileSync(join(out, "quarantine.jsonl"), "utf8").trim().split("\n");
     expect(quarantine.length).toBe(r.quarantined);
-    // kept documents per split equal the manifest's documents
-    for (const [split, s] of Object.entries(manifest.splits)) expect(lines.filter((l) => l.fate === "kept" && l.split === split).length).toBe(s.documents);
+    // kept documents per split equal the manifest's documents (train counts repeats by source weight)
+    for (const [split, s] of Object.entries(manifest.splits))
+      expect(lines.filter((l) => l.fate === "kept" && l.split === split).reduce((a, l) => a + (l.copies ?? 1), 0)).toBe(s.documents);
+    // the demo weights: notes are subsampled, manuals repeated in train
+    expect(r.by_reason.subsampled).toBeGreaterThan(0);
+    expect(lines.some((l) => l.source === "manuals" && l.copies === 2)).toBe(true);
   });
 
   it("never puts one depot in two splits", () => {

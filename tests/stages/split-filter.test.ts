@@ -1,4 +1,4 @@
-// split stability and group integrity; filter bounds.
+// split stability and group integrity; filter length bounds (the quality rules are tested in tests/filter/).
 import { beforeAll, describe, expect, it } from "vitest";
 import fc from "fast-check";
 import { assignSplit, splitKey } from "../../src/stages/split.js";
@@ -53,11 +53,16 @@ describe("filter", () => {
     expect(countWords("  brake  pad\tworn\nout ")).toBe(4);
     expect(codePoints("tram 🚋")).toBe(6);
   });
-  it("names the bound a text fails", () => {
-    expect(filterReason("", o)).toBe("too-few-chars");
-    expect(filterReason("asdf asdf", o)).toBe("too-few-words");
-    expect(filterReason("one two three four five six", o)).toBe("too-many-words");
-    expect(filterReason("x".repeat(31), { ...o, min_words: 0 })).toBe("too-many-chars");
+  it("names the bound a text fails by its option (ledger reason filter:<option>)", () => {
+    expect(filterReason("", o)).toBe("filter:min_chars");
+    expect(filterReason("asdf asdf", o)).toBe("filter:min_words");
+    expect(filterReason("one two three four five six", o)).toBe("filter:max_words");
+    expect(filterReason("x".repeat(31), { ...o, min_words: 0 })).toBe("filter:max_chars");
     expect(filterReason("door sensor replaced", o)).toBeUndefined();
+  });
+  it("applies bounds inclusively: min and max themselves pass", () => {
+    expect(filterReason("one two three", o)).toBeUndefined();
+    expect(filterReason("one two three four five", o)).toBeUndefined();
+    expect(filterReason("abcdefgh ijklmnop qrstuvwx yz1", { ...o, max_chars: 30 })).toBeUndefined(); // 30 characters
   });
 });

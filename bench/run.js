@@ -1,0 +1,140 @@
+// The benchmark suite (`npm run bench`, never part of `npm test`): per-stage throughput on one
+// thread, our tokenizer against the reference in the same run, the whole pipeline on 1 and all
+// workers, and peak memory at two corpus sizes. Prints a table and writes build/bench/results.json.
+//
+//   node bench/run.js [--small-mb 50] [--large-mb 200] [--skip-minhash]
+import { readFileSync, writeFileSync, mkdirSync, rmSync } from "node:fs";
+import { join } from "node:path";
+import { spawnSync } from "node:child_process";
+import { availableParallelism } from "node:os";
+import { fileURLToPath } from "node:url";
+import { makeCorpus } from "./corpus.js";
+
+const root = fileURLToPath(new URL("..", import.meta.url));
+const args = process.argv.slice(2);
+const opt = (name, dflt) => (args.includes(`--${name}`) ? Number(args[args.indexOf(`--${name}`) + 1]) : dflt);
+const flag = (name) => args.includes(`--${name}`);
+const work = join(root, "build/bench");
+mkdirSync(work, { recursive: true });
+
+const lib = await import(new URL("../dist/index.js", import.meta.url).href);
+const { loadHasher, xxh64String } = await import(new URL("../dist/lib/hash.js", import.meta.url).href);
+const { get_encoding } = await import("tiktoken");
+await loadHasher();
+
+const smallMb = opt("small-mb", 50);
+const largeMb = opt("large-mb", 200);
+console.log(`building corpora from /usr/share/doc/*/copyright and /usr/share/common-licenses: ${smallMb} MB and ${largeMb} MB …`);
+const small = await makeCorpus(work, smallMb);
+const large = await makeCorpus(work, largeMb);
+
+const texts = readFileSync(small, "utf8")
+  .split("\n")
+  .filter(Boolean)
+  .map((l) => JSON.parse(l).text);
+const mb = (arr) => arr.reduce((a, t) => a + Buffer.byteLength(t), 0) / 1e6;
+const totalMb = mb(texts);
+
+function time(fn) {
+  const t0 = performance.now();
+  fn();
+  return (performance.now() - t0) / 1000;
+}
+
+const rows = [];
+const results = { machine: { cores: availableParallelism(), node: process.version }, stages: {}, tokenizer: {}, pipeline: {}, memory: {} };
+
+// Per stage, one thread, in-process on the small corpus.
+const norm = lib.STAGES.normalize.options.check({}, [], []);
+let normalized;
+const tNorm = time(() => (normalized = texts.map((t) => lib.normalizeText(t, norm))));
+const filt = lib.STAGES.filter.options.check({ min_words: 5 }, [], []);
+const tFilt = time(() => normalized.forEach((t) => lib.filterReason(t, filt)));
+const tHash = time(() => normalized.forEach((t) => xxh64String(t)));
+for (const [name, sec] of [["normalize (NFKC + clean-up)", tNorm], ["filter (length bounds)", tFilt], ["dedup exact (xxh64)", tHash]]) {
+  results.stages[name] = { mb_s: totalMb / sec, records_s: texts.length / sec };
+  rows.push([name, (totalMb / sec).toFixed(1), Math.round(texts.length / sec), ""]);
+}
+
+// Tokenizers: ours against tiktoken (WASM build of the reference), encode_ordinary, same texts.
+const sample = normalized.slice(0, Math.ceil(normalized.length / 3));
+const sampleMb = mb(sample);
+for (const name of ["gpt2", "cl100k_base", "o200k_base"]) {
+  const ours = lib.loadEncoding(name);
+  let ourTokens = 0;
+  const tOurs = time(() => sample.forEach((t) => (ourTokens += ours.encode(t).length)));
+  const ref = get_encoding(name);
+  let refTokens = 0;
+  const tRef = time(() => sample.forEach((t) => (refTokens += ref.encode_ordinary(t).length)));
+  ref.free();
+  if (ourTokens !== refTokens) throw new Error(`${name}: token counts differ (${ourTokens} vs ${refTokens})`);
+  results.tokenizer[name] = { ours_mb_s: sampleMb / tOurs, ours_tokens_s: ourTokens / tOurs, tiktoken_mb_s: sampleMb / tRef, ratio: tRef / tOurs };
+  rows.push([`tokenize ${name}`, (sampleMb / tOurs).toFixed(1), Math.round(ourTokens / tOurs) + " tok/s", `${(tRef / tOurs).toFixed(1)}× tiktoken (${(sampleMb / tRef).toFixed(1)} MB/s)`]);
+}
+
+// Whole pipelines through the CLI, as a user runs them; peak RSS from the process itself.
+function pipelineFile(name, corpus, stages) {
+  const p = join(work, `${name}.yaml`);
+  writeFileSync(
+    p,
+    `siftpack: 1\nseed: 1\nsources: [{ name: bench, files: "${corpus}", format: jsonl, id: id, meta: [group] }]\nstages:\n${stages
+      .map((s) => `  - ${s}`)
+      .join("\n")}\noutput: { dir: out-${name} }\n`,
+  );
+  return p;
+}
+const full = ["normalize: {}", "filter: { min_words: 5 }", "dedup: { method: exact }", "split: { by: group, holdout: { val: 0.02, test: 0.02 } }", "tokenize: { encoding: gpt2 }", "pack: { length: 2048, strategy: best-fit }"];
+const tokOnly = ["tokenize: { encoding: gpt2 }", "pack: { length: 2048, strategy: concat, shuffle: false }"];
+// A child process per run, so each has its own peak RSS (worker threads included).
+const runner = join(work, "run-one.mjs");
+writeFileSync(
+  runner,
+  `const { main } = await import(${JSON.stringify(new URL("../dist/cli/main.js", import.meta.url).href)});
+const t0 = performance.now();
+const rc = await main(["run", process.argv[2], "--workers", process.argv[3], "--no-cache", "--json"]);
+process.stderr.write("\\nBENCH " + JSON.stringify({ rc, sec: (performance.now() - t0) / 1000, rss_mb: process.resourceUsage().maxRSS / 1024 }) + "\\n");
+`,
+);
+function run(pipeline, workers) {
+  const r = spawnSync(process.execPath, [runner, pipeline, String(workers)], { encoding: "utf8", env: { ...process.env, SIFTPACK_LOG: "warn" }, maxBuffer: 1 << 26 });
+  const line = r.stderr.split("\n").find((l) => l.startsWith("BENCH "));
+  if (!line) throw new Error(`pipeline run failed: ${r.stderr}`);
+  const res = JSON.parse(line.slice(6));
+  if (res.rc !== 0) throw new Error(`pipeline run exited ${res.rc}: ${r.stderr}`);
+  return res;
+}
+const cores = availableParallelism();
+const largeInputMb = readFileSync(large).length / 1e6;
+const p1 = run(pipelineFile("full", large, full), 1);
+const pN = run(pipelineFile("full", large, full), cores);
+const tok1 = run(pipelineFile("tok", large, tokOnly), 1);
+results.pipeline = {
+  input_mb: largeInputMb,
+  full_1_worker_mb_s: largeInputMb / p1.sec,
+  [`full_${cores}_workers_mb_s`]: largeInputMb / pN.sec,
+  scaling: p1.sec / pN.sec,
+  tokenize_only_1_worker_mb_s: largeInputMb / tok1.sec,
+  full_vs_tokenize_only: tok1.sec / p1.sec,
+};
+rows.push([`pipeline, 1 worker (${largeInputMb.toFixed(0)} MB)`, (largeInputMb / p1.sec).toFixed(1), "", `${p1.sec.toFixed(1)} s`]);
+rows.push([`pipeline, ${cores} workers`, (largeInputMb / pN.sec).toFixed(1), "", `${(p1.sec / pN.sec).toFixed(2)}× one worker`]);
+rows.push(["tokenize-only pipeline, 1 worker", (largeInputMb / tok1.sec).toFixed(1), "", `full pipeline at ${((100 * tok1.sec) / p1.sec).toFixed(0)} % of it`]);
+
+const smallRun = run(pipelineFile("full-small", small, full), cores);
+results.memory = { small_mb: smallMb, small_peak_rss_mb: smallRun.rss_mb, large_mb: largeMb, large_peak_rss_mb: pN.rss_mb, flatness: pN.rss_mb / smallRun.rss_mb };
+rows.push([`peak RSS ${smallMb} MB → ${largeMb} MB`, "", "", `${smallRun.rss_mb.toFixed(0)} → ${pN.rss_mb.toFixed(0)} MB (${(pN.rss_mb / smallRun.rss_mb).toFixed(2)}×)`]);
+
+console.log("");
+const widths = [0, 1, 2, 3].map((c) => Math.max(...[["measure", "MB/s", "records/s", "note"], ...rows].map((r) => String(r[c]).length)));
+for (const r of [["measure", "MB/s", "records/s", "note"], ...rows]) console.log(r.map((v, c) => String(v).padEnd(widths[c])).join("  "));
+
+if (!flag("skip-minhash")) {
+  console.log("\nMinHash (bench/minhash.bench.js):");
+  const r = spawnSync(process.execPath, [join(root, "bench/minhash.bench.js"), "--mb", String(Math.min(100, largeMb)), "--skip-memory"], { encoding: "utf8", stdio: ["ignore", "pipe", "inherit"] });
+  process.stdout.write(r.stdout);
+  results.minhash = r.stdout.trim().split("\n");
+}
+
+for (const d of ["full", "full-small", "tok"]) rmSync(join(work, `out-${d}`), { recursive: true, force: true });
+writeFileSync(join(work, "results.json"), JSON.stringify(results, null, 2) + "\n");
+console.log(`\nwrote ${join(work, "results.json")}`);

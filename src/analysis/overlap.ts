@@ -1,0 +1,59 @@
+// The overlap analyzer: figures between splits (n-gram overlap, exact and near duplicates, unigram shift) under "overlap" in manifest.json.
+import { mkdtempSync, rmSync } from "node:fs";
+import { join } from "node:path";
+import type { AnalyzerFactory } from "./analyzer.js";
+import type { PipelineConfig } from "../pipeline/config.js";
+import { loadHasher } from "../lib/hash.js";
+import { loadEncoding } from "../tokenizer/index.js";
+import { dedupOptions, type MinhashOptions } from "../dedup/options.js";
+import { resolveBands } from "../dedup/lsh-params.js";
+import { SplitOverlap, type NearDupSettings } from "../overlap/split-overlap.js";
+
+/**
+ * Word n-gram length of the overlap figures: 13, as in the contamination analysis of Brown et al.
+ * 2020 ("Language Models are Few-Shot Learners", appendix C; from memory). The pipeline file has no
+ * key to change it yet; `siftpack overlap --ngram` says so when asked for another n.
+ */
+export const OVERLAP_NGRAM = 13;
+
+/** MinHash settings: the pipeline's last MinHash dedup stage, or that stage's defaults when it has none. */
+export function nearDupSettings(config: PipelineConfig): NearDupSettings {
+  const stage = config.stages.filter((s) => s.name === "dedup" && s.options.method === "minhash").at(-1);
+  const issues: { path: (string | number)[]; message: string }[] = [];
+  const o = (stage?.options ?? dedupOptions.check({ method: "minhash" }, [], issues)) as MinhashOptions;
+  if (issues.length) throw new Error(`overlap: default MinHash options do not validate: ${issues[0].message}`);
+  const { bands, rows } = resolveBands(o);
+  return {
+    signer: { shingle: { kind: o.shingle, ngram: o.ngram, lowercase: o.lowercase }, permutations: o.permutations, bands, rows, seed: config.seed },
+    threshold: o.threshold,
+    basis: stage ? "the pipeline's minhash dedup stage" : "dedup minhash defaults (the pipeline has no minhash dedup stage)",
+  };
+}
+
+export const overlapAnalyzer: AnalyzerFactory = {
+  key: "overlap",
+  async create({ config, workDir, log }) {
+    // Without a held-out split there is nothing to compare: skip the (costly) n-gram and MinHash work.
+    const split = config.stages.find((s) => s.name === "split");
+    if (!split || split.options.holdout.val + split.options.holdout.test === 0) return undefined;
+    await loadHasher();
+    const tokenize = config.stages.find((s) => s.name === "tokenize");
+    const vocabSize = tokenize ? loadEncoding(tokenize.options.encoding).vocabSize : 0;
+    const tmpDir = mkdtempSync(join(workDir, ".overlap-"));
+    const counter = new SplitOverlap({ ngram: OVERLAP_NGRAM, form: "NFKC", vocabSize, nearDup: nearDupSettings(config), tmpDir });
+    return {
+      add(r) {
+        counter.add(r.split ?? "train", r.text, r.tokens);
+      },
+      async finish() {
+        try {
+          const figures = counter.finish();
+          if (figures.train_set.kind === "bloom") log.info({ analyzer: "overlap", train_set: figures.train_set }, "train n-grams exceeded the exact set; overlap with train uses a Bloom filter");
+          return figures;
+        } finally {
+          rmSync(tmpDir, { recursive: true, force: true });
+        }
+      },
+    };
+  },
+};

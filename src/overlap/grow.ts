@@ -1,0 +1,38 @@
+// Growable typed arrays: append-only columns of numbers without per-element objects.
+
+type Typed = Int32Array | Uint32Array | Uint8Array;
+
+export class Grow<T extends Typed> {
+  private data: T;
+  length = 0;
+
+  constructor(private readonly make: (n: number) => T) {
+    this.data = make(256);
+  }
+
+  push(x: number): void {
+    if (this.length === this.data.length) {
+      const next = this.make(this.data.length * 2);
+      next.set(this.data as any);
+      this.data = next;
+    }
+    this.data[this.length++] = x;
+  }
+
+  get(i: number): number {
+    return this.data[i];
+  }
+
+  set(i: number, x: number): void {
+    this.data[i] = x;
+  }
+
+  /** The filled part, without copying (valid until the next push). */
+  view(): T {
+    return this.data.subarray(0, this.length) as T;
+  }
+}
+
+export const int32s = () => new Grow((n) => new Int32Array(n));
+export const uint32s = () => new Grow((n) => new Uint32Array(n));
+export const bytes = () => new Grow((n) => new Uint8Array(n));

@@ -1,0 +1,101 @@
+// decontaminate: drops (or marks) training records sharing a word n-gram with protected evaluation texts.
+import { existsSync, writeFileSync } from "node:fs";
+import { join } from "node:path";
+import { defineStage } from "./stage.js";
+import { field, list, num, obj, str, type Infer } from "../pipeline/schema.js";
+import { loadProtected, type ProtectedFile } from "../overlap/protected-set.js";
+import { NgramHasher } from "../overlap/ngram-hash.js";
+import { WORD_FORMS, wordsOf, type WordForm } from "../overlap/words.js";
+
+export const decontaminateOptions = obj({
+  /** Protected files or globs, relative to the pipeline file; plain text, passages separated by blank lines. */
+  against: field(list(str({ nonEmpty: true }), { nonEmpty: true, orSingle: true }), { required: true }),
+  /** Words per n-gram. 13 is the length used for the contamination study of Brown et al. 2020 (appendix C; from memory). */
+  ngram: field(num({ integer: true, min: 1, max: 64 }), { default: 13 }),
+  action: field(str({ oneOf: ["drop", "mark"] as const }), { default: "drop" as "drop" | "mark" }),
+  /** Unicode form applied to both sides before lower-casing and cutting words. */
+  form: field(str({ oneOf: WORD_FORMS }), { default: "NFKC" as WordForm }),
+});
+export type DecontaminateOptions = Infer<typeof decontaminateOptions>;
+
+export interface Contamination {
+  /** The first shared n-gram, as normalized words joined by single spaces. */
+  ngram: string;
+  /** The protected file it comes from (relative to the pipeline file). */
+  file: string;
+}
+
+/** The first n-gram of `text` found in the protected set, or undefined. */
+export function findContamination(text: string, o: DecontaminateOptions, hasher: NgramHasher, grams: { get(hi: number, lo: number): number }, files: readonly ProtectedFile[]): Contamination | undefined {
+  const words = wordsOf(text, o.form);
+  const count = hasher.hash(words);
+  for (let i = 0; i < count; i++) {
+    const f = grams.get(hasher.hi[i], hasher.lo[i]);
+    if (f >= 0) return { ngram: words.slice(i, i + o.ngram).join(" "), file: files[f].path };
+  }
+  return undefined;
+}
+
+/** decontaminate.json, decontaminate-2.json, …: the first name not yet written in this build. */
+function reportName(workDir: string): string {
+  for (let i = 1; ; i++) {
+    const name = i === 1 ? "decontaminate.json" : `decontaminate-${i}.json`;
+    if (!existsSync(join(workDir, name))) return name;
+  }
+}
+
+export default defineStage({
+  name: "decontaminate",
+  summary: "drops (or marks) training records sharing a word n-gram with protected evaluation texts; place it after split",
+  // Text is never changed (records are dropped or get meta.contaminated), so cached token ids stay valid.
+  // Not per-record: it needs each record's split and writes one report over the whole stream.
+  options: decontaminateOptions,
+  async create(o, env) {
+    const set = await loadProtected(o.against, env.baseDir, o.ngram, o.form, "decontaminate");
+    return async function* decontaminate(input, ctx) {
+      const hasher = new NgramHasher(o.ngram);
+      for (const f of set.files)
+        if (f.short_passages > 0) ctx.log.warn({ stage: "decontaminate", file: f.path, short_passages: f.short_passages, ngram: o.ngram }, "protected passages shorter than one n-gram cannot be matched");
+      ctx.log.info({ stage: "decontaminate", files: set.files.length, distinct_ngrams: set.grams.size, bytes: set.grams.bytes }, "protected n-grams loaded");
+      let checked = 0;
+      const matches: Record<string, unknown>[] = [];
+      for await (const r of input) {
+        // Only training text is checked: held-out splits are for evaluation and keep whatever they hold.
+        // Records without a split are training records, which is also why this stage belongs after split.
+        if (r.split === undefined || r.split === "train") {
+          checked++;
+          const hit = findContamination(r.text, o, hasher, set.grams, set.files);
+          if (hit) {
+            matches.push({ source: r.source, id: r.id, ...hit });
+            if (o.action === "drop") {
+              ctx.drop(r, "decontaminated", { ...hit });
+              continue;
+            }
+            r.meta.contaminated = hit;
+            ctx.count("decontaminate:marked");
+          }
+        }
+        yield r;
+      }
+      ctx.count("decontaminate:checked", checked);
+      // What this build was decontaminated against, and what matched (the ledger's kept lines do not carry marks).
+      const name = reportName(ctx.workDir);
+      const report = {
+        ngram: o.ngram,
+        form: o.form,
+        action: o.action,
+        files: set.files,
+        distinct_ngrams: set.grams.size,
+        // A training n-gram is taken for a protected one by hash collision with about this probability per lookup.
+        collision_rate_per_lookup: set.grams.size / 2 ** 64,
+        checked,
+        matches,
+      };
+      writeFileSync(join(ctx.workDir, name), JSON.stringify(report, null, 2) + "\n");
+      ctx.addOutputFile(name);
+    };
+  },
+  explain(o) {
+    return { words: `${o.form === "none" ? "" : o.form + ", "}format characters removed, lower-cased, runs of letters, marks and digits`, checks: "records whose split is train (or unset)" };
+  },
+});

@@ -1,0 +1,88 @@
+// N-gram repetition rules at their Gopher thresholds (table A1), on documents of exact word counts.
+import { describe, expect, it } from "vitest";
+import fc from "fast-check";
+import { WordGrams, duplicateNgramShare, duplicateNgrams, topNgramShare, topNgrams } from "../../src/filter/ngrams.js";
+import { distinctWords, verdict } from "./docs.js";
+
+/** N distinct five-letter words whose last k words repeat the first k: one k-gram occurs twice. */
+function withRepeat(n: number, k: number): string {
+  const w = distinctWords(n);
+  for (let i = 0; i < k; i++) w[n - k + i] = w[i];
+  return w.join(" ");
+}
+
+describe("top_ngrams (most frequent 2-, 3-, 4-gram: ≤ 0.20, 0.18, 0.16 of characters)", () => {
+  it("2-grams: passes 4 of 20 words covered, fails 4 of 19", () => {
+    expect(verdict(topNgrams, withRepeat(20, 2))).toBeUndefined();
+    expect(verdict(topNgrams, withRepeat(19, 2))).toEqual({ n: 2, share: 0.2105, max: 0.2 });
+  });
+  it("3-grams: passes 6 of 34 words, fails 6 of 33", () => {
+    expect(verdict(topNgrams, withRepeat(34, 3))).toBeUndefined();
+    expect(verdict(topNgrams, withRepeat(33, 3))).toEqual({ n: 3, share: 0.1818, max: 0.18 });
+  });
+  it("4-grams: passes 8 of 50 words, fails 8 of 49", () => {
+    expect(verdict(topNgrams, withRepeat(50, 4))).toBeUndefined();
+    expect(verdict(topNgrams, withRepeat(49, 4))).toEqual({ n: 4, share: 0.1633, max: 0.16 });
+  });
+  it("counts overlapping occurrences once and compares words case-insensitively", () => {
+    const g = new WordGrams("door door door door".split(" "));
+    expect(topNgramShare(g, 2)).toBe(1);
+    expect(topNgramShare(new WordGrams("Door fault door FAULT".split(" ")), 2)).toBe(1);
+  });
+  it("treats an n-gram seen once as no repetition, so short texts pass", () => {
+    expect(verdict(topNgrams, "Pantograph lowered.")).toBeUndefined();
+    expect(verdict(topNgrams, "Brake pads replaced on car 4711.")).toBeUndefined();
+  });
+});
+
+describe("duplicate_ngrams (characters in repeated 5- to 10-grams: ≤ 0.15 … 0.10)", () => {
+  it("5-grams: passes 10 of 67 words covered, fails 10 of 66", () => {
+    expect(verdict(duplicateNgrams, withRepeat(67, 5))).toBeUndefined();
+    expect(verdict(duplicateNgrams, withRepeat(66, 5))).toEqual({ n: 5, share: 0.1515, max: 0.15 });
+  });
+  it("10-grams: passes 20 of 200 words covered, fails 20 of 199", () => {
+    expect(verdict(duplicateNgrams, withRepeat(200, 10))).toBeUndefined();
+    expect(verdict(duplicateNgrams, withRepeat(199, 10))).toEqual({ n: 10, share: 0.1005, max: 0.1 });
+  });
+  it("counts every occurrence, the first included, and each character once", () => {
+    const w = "a b c d e a b c d e a b c d e".split(" ");
+    expect(duplicateNgramShare(new WordGrams(w), 5)).toBe(1);
+    expect(duplicateNgramShare(new WordGrams(distinctWords(30)), 5)).toBe(0);
+  });
+  it("shares are fractions of word characters, spaces not counted", () => {
+    // "ab ab" twice over 2-grams: every word covered regardless of spacing.
+    expect(topNgramShare(new WordGrams(["ab", "cd", "ab", "cd"]), 2)).toBe(1);
+  });
+  it("agrees with a direct count over joined strings (the integer ids are exact)", () => {
+    // Reference: n-grams as space-joined strings, words marked covered in a boolean array.
+    const reference = (words: string[], n: number) => {
+      const keys = words.slice(0, Math.max(0, words.length - n + 1)).map((_, i) => words.slice(i, i + n).join(" ").toLowerCase());
+      const count = new Map<string, number>();
+      for (const k of keys) count.set(k, (count.get(k) ?? 0) + 1);
+      const covered = new Array(words.length).fill(false);
+      keys.forEach((k, i) => {
+        if (count.get(k)! >= 2) for (let j = i; j < i + n; j++) covered[j] = true;
+      });
+      const total = words.reduce((a, w) => a + [...w].length, 0);
+      return total === 0 ? 0 : words.reduce((a, w, i) => a + (covered[i] ? [...w].length : 0), 0) / total;
+    };
+    fc.assert(
+      fc.property(fc.array(fc.constantFrom("tram", "Tram", "door", "car", "road", "4711", "ü", "🚋"), { maxLength: 80 }), fc.integer({ min: 1, max: 10 }), (words, n) => {
+        expect(duplicateNgramShare(new WordGrams(words), n)).toBeCloseTo(reference(words, n), 12);
+      }),
+    );
+  });
+
+  it("never reports a share outside [0, 1] and the top n-gram never covers more than the duplicates", () => {
+    fc.assert(
+      fc.property(fc.array(fc.constantFrom("tram", "door", "car", "road", "4711"), { maxLength: 60 }), fc.integer({ min: 1, max: 6 }), (words, n) => {
+        const g = new WordGrams(words);
+        const top = topNgramShare(g, n);
+        const dup = duplicateNgramShare(g, n);
+        expect(top).toBeGreaterThanOrEqual(0);
+        expect(dup).toBeLessThanOrEqual(1);
+        expect(top).toBeLessThanOrEqual(dup + 1e-12);
+      }),
+    );
+  });
+});
