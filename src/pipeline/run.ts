@@ -133,7 +133,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     if (entry.name === "tokenize") {
       stream = parallelTokenize(entry.options as TokenizeOptions, poolFor([entry]), cache)(stream, ctx);
     } else {
-      const stage = await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir });
+      const stage = await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir, workers: threads });
       stream = stage(stream, ctx);
     }
   }

@@ -28,8 +28,9 @@ export default defineStage<DedupOptions>({
   name: "dedup",
   summary: "removes duplicate documents: exact (same text, keeps the first) or minhash (near-duplicates; two passes over the corpus)",
   options: dedupOptions,
-  async create(o) {
-    if (o.method === "minhash") return createMinhashStage(o);
+  async create(o, env) {
+    // workers: 0 follows the run's --workers (one thread there means signing in the main thread).
+    if (o.method === "minhash") return createMinhashStage(o.workers === 0 && env.workers !== undefined ? { ...o, workers: env.workers } : o);
     await loadHasher();
     return exactStage();
   },

@@ -9,6 +9,8 @@ export type Stage = (input: AsyncIterable<DocRecord>, ctx: StageContext) => Asyn
 export interface StageEnv {
   /** The pipeline file's directory: relative paths in stage options are resolved against it. */
   baseDir: string;
+  /** Threads the run may use (`run --workers`); stages with threads of their own follow it by default. */
+  workers?: number;
 }
 
 export interface StageDefinition<O = any> {

@@ -148,7 +148,7 @@ describe("siftpack overlap", () => {
     expect(r.stderr).toBe("");
     for (const [a, b] of [["train", "val"], ["train", "test"], ["val", "test"]]) expect(r.stdout).toMatch(new RegExp(`^${a}\\s+${b}\\s+\\d+`, "m"));
     expect(r.stdout).toContain("word 13-grams");
-    expect(r.stdout).toContain("no minhash dedup stage");
+    expect(r.stdout).toContain("settings from the pipeline's minhash dedup stage");
     const j = siftpack(["overlap", out, "--json", "--ngram", "13"]);
     expect(j.code).toBe(0);
     expect(JSON.parse(j.stdout)).toEqual(manifest.overlap);
