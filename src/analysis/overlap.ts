@@ -10,9 +10,9 @@ import { resolveBands } from "../dedup/lsh-params.js";
 import { SplitOverlap, type NearDupSettings } from "../overlap/split-overlap.js";
 
 /**
- * Word n-gram length of the overlap figures: 13, as in the contamination analysis of Brown et al.
- * 2020 ("Language Models are Few-Shot Learners", appendix C; from memory). The pipeline file has no
- * key to change it yet; `siftpack overlap --ngram` says so when asked for another n.
+ * Word n-gram length of the overlap figures by default: 13, as in the contamination analysis of
+ * Brown et al. 2020 ("Language Models are Few-Shot Learners", appendix C; from memory). The
+ * pipeline file's `overlap: { ngram }` changes it.
  */
 export const OVERLAP_NGRAM = 13;
 
@@ -35,12 +35,13 @@ export const overlapAnalyzer: AnalyzerFactory = {
   async create({ config, workDir, log }) {
     // Without a held-out split there is nothing to compare: skip the (costly) n-gram and MinHash work.
     const split = config.stages.find((s) => s.name === "split");
-    if (!split || split.options.holdout.val + split.options.holdout.test === 0) return undefined;
+    if (!config.overlap.enabled || !split || split.options.holdout.val + split.options.holdout.test === 0) return undefined;
     await loadHasher();
     const tokenize = config.stages.find((s) => s.name === "tokenize");
     const vocabSize = tokenize ? loadEncoding(tokenize.options.encoding).vocabSize : 0;
     const tmpDir = mkdtempSync(join(workDir, ".overlap-"));
-    const counter = new SplitOverlap({ ngram: OVERLAP_NGRAM, form: "NFKC", vocabSize, nearDup: nearDupSettings(config), tmpDir });
+    const nearDup = config.overlap.near_duplicates ? nearDupSettings(config) : { unavailable: "switched off in the pipeline file (overlap: { near_duplicates: false })" };
+    const counter = new SplitOverlap({ ngram: config.overlap.ngram, form: "NFKC", vocabSize, nearDup, tmpDir });
     return {
       add(r) {
         counter.add(r.split ?? "train", r.text, r.tokens);

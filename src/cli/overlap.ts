@@ -71,7 +71,7 @@ export const overlapCommand: CommandModule<object, Args> = {
   builder: (y) =>
     y
       .positional("dir", { type: "string", demandOption: true })
-      .option("ngram", { type: "number", describe: "n-gram length the figures must have been computed with (the build computes 13)" })
+      .option("ngram", { type: "number", describe: "n-gram length the figures must have been computed with (set by the pipeline's overlap: { ngram }, default 13)" })
       .option("max-ngram-overlap", { type: "number", describe: "exit 1 when any held-out split has a larger fraction of its n-grams in an earlier split (0..1)" })
       .option("json", { type: "boolean" }),
   handler: async (args) => {
@@ -79,11 +79,12 @@ export const overlapCommand: CommandModule<object, Args> = {
     if (rate !== undefined && !(rate >= 0 && rate <= 1)) throw new SiftpackError("SP_USAGE", `--max-ngram-overlap must be a fraction from 0 to 1, got ${rate}`);
     const m = await readManifest(args.dir);
     const f = m.overlap as OverlapFigures | undefined;
-    if (!f || !Array.isArray(f.pairs)) throw new SiftpackError("SP_MANIFEST", `${args.dir}: the manifest has no overlap figures (the build predates them); rebuild with this version of siftpack`);
+    if (!f || !Array.isArray(f.pairs))
+      throw new SiftpackError("SP_MANIFEST", `${args.dir}: the manifest has no overlap figures (the build had no held-out split, or "overlap: false" in its pipeline file)`);
     if (args.ngram !== undefined && args.ngram !== f.ngram) {
       throw new SiftpackError(
         "SP_USAGE",
-        `--ngram ${args.ngram}: this build computed the overlap with n = ${f.ngram}, at build time; figures for another n cannot be derived from the manifest, and this version of siftpack always computes n = ${f.ngram} (the pipeline file has no key for it yet)`,
+        `--ngram ${args.ngram}: this build computed the overlap with n = ${f.ngram}, at build time; figures for another n cannot be derived from the manifest: set "overlap: { ngram: ${args.ngram} }" in the pipeline file and rebuild`,
       );
     }
     process.stdout.write(args.json ? JSON.stringify(f, null, 2) + "\n" : formatOverlap(args.dir, f));

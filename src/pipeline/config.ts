@@ -1,5 +1,5 @@
 // The schema of the pipeline file (DESIGN.md §2) and the resolved configuration type.
-import { field, list, num, obj, str, literal, type Infer, type Issue, type Path, type Schema } from "./schema.js";
+import { bool, field, list, num, obj, str, literal, type Infer, type Issue, type Path, type Schema } from "./schema.js";
 import { STAGES } from "../stages/index.js";
 import { closest } from "../lib/did-you-mean.js";
 
@@ -41,10 +41,32 @@ const stageEntry: Schema<StageEntry> = {
   },
 };
 
+export interface OverlapSettings {
+  enabled: boolean;
+  ngram: number;
+  near_duplicates: boolean;
+}
+
+const overlapFields = obj({
+  ngram: field(num({ integer: true, min: 1, max: 64 }), { default: 13 }),
+  near_duplicates: field(bool(), { default: true }),
+});
+
+/** `overlap: false` switches the figures off; a mapping sets them (defaults: 13-grams, with near-duplicates). */
+const overlapSchema: Schema<OverlapSettings> = {
+  describe: "false, or a mapping { ngram, near_duplicates }",
+  check(value, path, issues) {
+    if (value === false) return { enabled: false, ngram: 13, near_duplicates: false };
+    if (value === true) value = {};
+    return { enabled: true, ...overlapFields.check(value, path, issues) };
+  },
+};
+
 export const pipelineSchema = obj({
   siftpack: field(literal(1), { required: true }),
   seed: field(num({ integer: true, min: 0, max: 2 ** 32 - 1 }), { default: 0 }),
   max_bad_fraction: field(num({ min: 0, max: 1 }), { default: 0.01 }),
+  overlap: field(overlapSchema, { default: { enabled: true, ngram: 13, near_duplicates: true } }),
   sources: field(list(sourceSchema, { nonEmpty: true }), { required: true }),
   stages: field(list(stageEntry, { nonEmpty: true }), { required: true }),
   output: field(

@@ -183,4 +183,21 @@ describe("siftpack overlap", () => {
     expect(r.code).toBe(1);
     expect(r.stderr).toContain("the manifest has no overlap figures");
   });
+
+  it("follows the pipeline's overlap settings: another n, near-duplicates off, or no figures at all", () => {
+    const text = readFileSync(join(dir, "demo.yaml"), "utf8");
+    writeFileSync(join(dir, "demo-8.yaml"), text + "\noverlap: { ngram: 8, near_duplicates: false }\n");
+    expect(siftpack(["run", join(dir, "demo-8.yaml"), "--out", join(dir, "out-8")]).code).toBe(0);
+    const m8 = JSON.parse(readFileSync(join(dir, "out-8/manifest.json"), "utf8"));
+    expect(m8.overlap.ngram).toBe(8);
+    expect(m8.overlap.near_duplicates.unavailable).toMatch(/switched off/);
+    // shorter n-grams are shared more often than 13-grams
+    expect(m8.overlap.pairs[0].ngram_fraction).toBeGreaterThan(manifest.overlap.pairs[0].ngram_fraction);
+    writeFileSync(join(dir, "demo-off.yaml"), text + "\noverlap: false\n");
+    expect(siftpack(["run", join(dir, "demo-off.yaml"), "--out", join(dir, "out-off")]).code).toBe(0);
+    expect(JSON.parse(readFileSync(join(dir, "out-off/manifest.json"), "utf8")).overlap).toBeUndefined();
+    const r = siftpack(["overlap", join(dir, "out-off")]);
+    expect(r.code).toBe(1);
+    expect(r.stderr).toMatch(/no overlap figures \(the build had no held-out split, or "overlap: false"/);
+  });
 });

@@ -115,6 +115,13 @@ output:
     expect(problems("").details.join("\n")).toMatch(/missing required key "sources"/);
   });
 
+  it("overlap settings: defaults, a mapping, or false", () => {
+    expect(parsePipeline(good, "p.yaml").overlap).toEqual({ enabled: true, ngram: 13, near_duplicates: true });
+    expect(parsePipeline(good + "overlap: { ngram: 8, near_duplicates: false }\n", "p.yaml").overlap).toEqual({ enabled: true, ngram: 8, near_duplicates: false });
+    expect(parsePipeline(good + "overlap: false\n", "p.yaml").overlap.enabled).toBe(false);
+    expect(problems(good + "overlap: { n: 8 }\n").details.join("\n")).toMatch(/overlap\.n: unknown key "n"/);
+  });
+
   it("the demo pipeline is valid", () => {
     expect(() => parsePipeline(readFileSync("pipelines/demo.yaml", "utf8"), "pipelines/demo.yaml")).not.toThrow();
   });
