@@ -27,16 +27,26 @@ export interface PoolOptions<Req, Res> {
   module: URL | undefined;
   /** Passed to the worker as workerData. */
   init: unknown;
+  /** Worker threads; 1 or fewer runs `local` in this thread. */
   threads: number;
   /** The same handler, for in-thread use. */
   local: () => Promise<Handler<Req, Res>>;
-  /** Buffers in a result to move rather than copy back. */
-  transfer?: (res: Res) => ArrayBuffer[];
+  /** Names the workers in errors ("dedup signing worker"). */
+  name?: string;
 }
 
+/**
+ * Worker protocol: the pool posts a request; the worker answers `{ result }` (moving its typed
+ * arrays) or `{ error: { message, where? } }`. Workers start only when a request is waiting for
+ * one, so a small input never starts threads it does not need, and an idle worker is unref'd so it
+ * never keeps the process alive on its own.
+ */
 export class WorkerPool<Req, Res> {
   readonly threads: number;
   private localHandler: Promise<Handler<Req, Res>> | undefined;
+  private readonly url: URL | undefined;
+  private readonly init: unknown;
+  private readonly name: string;
   private readonly workers: Worker[] = [];
   private readonly idle: Worker[] = [];
   private readonly queue: Job<Req, Res>[] = [];
@@ -44,22 +54,23 @@ export class WorkerPool<Req, Res> {
   private failure: unknown;
 
   constructor(o: PoolOptions<Req, Res>) {
-    const url = o.threads > 1 ? o.module : undefined;
-    this.threads = url ? o.threads : 1;
-    if (!url) {
-      this.localHandler = o.local();
-      return;
-    }
-    for (let i = 0; i < o.threads; i++) {
-      const w = new Worker(url, { workerData: o.init });
-      w.on("message", (msg: { result?: Res; error?: { message: string; where?: unknown } }) => this.done(w, msg));
-      w.on("error", (e) => this.fail(e));
-      w.on("exit", (code) => {
-        if (code !== 0) this.fail(new Error(`worker thread exited with code ${code}`));
-      });
-      this.workers.push(w);
-      this.idle.push(w);
-    }
+    this.url = o.threads > 1 ? o.module : undefined;
+    this.threads = this.url ? o.threads : 1;
+    this.init = o.init;
+    this.name = o.name ?? "worker thread";
+    if (!this.url) this.localHandler = o.local();
+  }
+
+  private spawn(): void {
+    const w = new Worker(this.url!, { workerData: this.init });
+    w.unref();
+    w.on("message", (msg: { result?: Res; error?: { message: string; where?: unknown } }) => this.done(w, msg));
+    w.on("error", (e) => this.fail(e));
+    w.on("exit", (code) => {
+      if (code !== 0) this.fail(new Error(`${this.name} exited with code ${code}`));
+    });
+    this.workers.push(w);
+    this.idle.push(w);
   }
 
   submit(req: Req): Promise<Res> {
@@ -72,10 +83,12 @@ export class WorkerPool<Req, Res> {
   }
 
   private pump(): void {
+    if (this.idle.length === 0 && this.queue.length > 0 && this.workers.length < this.threads) this.spawn();
     while (this.idle.length > 0 && this.queue.length > 0) {
       const w = this.idle.pop()!;
       const job = this.queue.shift()!;
       this.running.set(w, job);
+      w.ref();
       w.postMessage(job.req);
     }
   }
@@ -83,6 +96,7 @@ export class WorkerPool<Req, Res> {
   private done(w: Worker, msg: { result?: Res; error?: { message: string; where?: unknown } }): void {
     const job = this.running.get(w);
     this.running.delete(w);
+    w.unref();
     this.idle.push(w);
     if (msg.error) job?.reject(Object.assign(new Error(msg.error.message), { where: msg.error.where }));
     else job?.resolve(msg.result as Res);

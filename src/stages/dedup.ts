@@ -30,7 +30,7 @@ export default defineStage<DedupOptions>({
   options: dedupOptions,
   async create(o, env) {
     // workers: 0 follows the run's --workers (one thread there means signing in the main thread).
-    if (o.method === "minhash") return createMinhashStage(o.workers === 0 && env.workers !== undefined ? { ...o, workers: env.workers } : o);
+    if (o.method === "minhash") return createMinhashStage(o.workers === 0 && env?.workers !== undefined ? { ...o, workers: env.workers } : o);
     await loadHasher();
     return exactStage();
   },
