@@ -2,6 +2,7 @@
 // per-record stages, and the outcome (quarantined rows, drops, surviving records) is cached so a
 // rerun replays the file instead of reading and processing it again.
 import { rm } from "node:fs/promises";
+import { resolve } from "node:path";
 import { readSourceFile, RecordMapper, type SourceSpec } from "../sources/source.js";
 import { BuildCache } from "../cache/build-cache.js";
 import { EventWriter, readEvents, recordEvent, tokensFromText } from "../cache/record-events.js";
@@ -28,7 +29,17 @@ export interface ReadUnitsOptions {
   pool: RecordPool;
   /** How many times train sees a record of a weighted source (0 = subsampled away). */
   copiesOf(r: DocRecord): number;
-  progress(): void;
+  /** Called with counts only, or with where reading is when it enters or finishes an input file. */
+  progress(input?: InputProgress): void;
+}
+
+/** How far reading has got: the input files finished (and their bytes on disk), and the one being read. */
+export interface InputProgress {
+  bytesDone: number;
+  filesDone: number;
+  /** Absolute path and size of the file being read (absent between files and at the end). */
+  file?: string;
+  fileSize?: number;
 }
 
 export function unitId(source: string, file: string): string {
@@ -39,9 +50,12 @@ export function unitId(source: string, file: string): string {
 export async function* readUnits(o: ReadUnitsOptions): AsyncGenerator<DocRecord> {
   let seq = 0;
   const nextSeq = () => seq++;
+  let bytesDone = 0;
+  let filesDone = 0;
   for (const spec of o.config.sources) {
     const mapper = new RecordMapper(spec);
     for (const input of o.inputs.filter((i) => i.source === spec.name)) {
+      o.progress({ bytesDone, filesDone, file: resolve(o.baseDir, input.path), fileSize: input.size });
       const key = BuildCache.key({
         unit: "read",
         siftpack: toolVersion(),
@@ -55,7 +69,7 @@ export async function* readUnits(o: ReadUnitsOptions): AsyncGenerator<DocRecord>
         ids_before: mapper.idsDigest,
         prefix: o.prefix.map((e) => ({ [e.name]: e.options })),
       });
-      const hit = await o.cache.lookup("read", key, ".jsonl.gz");
+      const hit = await o.cache.lookup("read", key, ".jsonl");
       if (hit) {
         o.cache.report.read.reused++;
         yield* replayUnit(o, spec, mapper, hit, nextSeq);
@@ -63,13 +77,16 @@ export async function* readUnits(o: ReadUnitsOptions): AsyncGenerator<DocRecord>
         o.cache.report.read.computed++;
         yield* computeUnit(o, spec, mapper, input.path, key, nextSeq);
       }
+      bytesDone += input.size;
+      filesDone++;
+      o.progress({ bytesDone, filesDone });
     }
   }
 }
 
 async function* computeUnit(o: ReadUnitsOptions, spec: SourceSpec, mapper: RecordMapper, file: string, key: string, nextSeq: () => number): AsyncGenerator<DocRecord> {
   const { ledger } = o;
-  const out = o.cache.pending("read", key, ".jsonl.gz");
+  const out = o.cache.pending("read", key, ".jsonl");
   const writer = new EventWriter(out.tmp);
   const rowsBefore = mapper.rows;
   const counts: Record<string, number> = {};
