@@ -1,12 +1,14 @@
-// `siftpack encode --encoding NAME [FILE]`: prints the token ids of a text as JSON (stdin when no FILE).
+// `siftpack encode [--encoding NAME | --tokenizer PATH] [FILE]`: prints the token ids of a text as JSON (stdin when no FILE).
 import { readFile } from "node:fs/promises";
 import type { CommandModule } from "yargs";
-import { ENCODINGS, loadEncoding } from "../tokenizer/index.js";
+import { ENCODINGS, loadEncoding, loadTokenizerFile } from "../tokenizer/index.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 
 interface Args {
   file?: string;
-  encoding: string;
+  encoding?: string;
+  tokenizer?: string;
+  "eos-token"?: string;
   decode?: boolean;
 }
 
@@ -29,10 +31,17 @@ export const encodeCommand: CommandModule<object, Args> = {
   builder: (y) =>
     y
       .positional("file", { type: "string" })
-      .option("encoding", { type: "string", default: "gpt2", choices: ENCODINGS as string[] })
+      // No yargs default for --encoding: with one, "conflicts" would fire on every --tokenizer.
+      .option("encoding", { type: "string", choices: ENCODINGS as string[], describe: "a named encoding (default gpt2)" })
+      .option("tokenizer", { type: "string", describe: "a byte-level BPE tokenizer file (JSON tokenizer-file format)" })
+      .option("eos-token", { type: "string", describe: "with --tokenizer: the added token that ends documents (default <|endoftext|>)" })
+      .conflicts("encoding", "tokenizer")
       .option("decode", { type: "boolean", describe: "read a JSON list of ids and print the text" }),
   handler: async (args) => {
-    const enc = await loadEncoding(args.encoding);
+    const enc =
+      args.tokenizer !== undefined
+        ? loadTokenizerFile(args.tokenizer, args["eos-token"] !== undefined ? { eosToken: args["eos-token"] } : {})
+        : loadEncoding(args.encoding ?? "gpt2");
     const input = await readInput(args.file);
     if (args.decode) {
       let ids: unknown;

@@ -25,9 +25,10 @@ interface Pending {
 
 const EMPTY: BatchOut = { items: [], counts: {}, tokens: new Uint32Array(0), ends: new Int32Array(0) };
 
-/** `cache` undefined: no caching; batches still run in parallel. */
-export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined): Stage {
-  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, tokenize: o });
+/** `cache` undefined: no caching; batches still run in parallel. `encoderName` identifies the tokenizer in cache keys. */
+export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined, encoderName: string): Stage {
+  // The encoder's name carries a hash of a tokenizer file's content, so editing the file invalidates the entries.
+  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, tokenize: o, encoder: encoderName });
   return async function* tokenize(input, ctx) {
     // Lookup side: the cache entry of the file now being batched.
     let reading: { id: string; reader?: TokenStoreReader } | undefined;

@@ -13,6 +13,7 @@ import { orderedMap } from "../parallel/pool.js";
 import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
 import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
 import { SiftpackError } from "../errors.js";
+import { encoderFor } from "../stages/tokenize.js";
 import type { DocRecord, StageContext } from "../types.js";
 
 export interface ReadUnitsOptions {
@@ -67,7 +68,8 @@ export async function* readUnits(o: ReadUnitsOptions): AsyncGenerator<DocRecord>
         // Default ids count rows across the source's files; explicit ids must be unique across them.
         first_row: mapper.rows,
         ids_before: mapper.idsDigest,
-        prefix: o.prefix.map((e) => ({ [e.name]: e.options })),
+        // A tokenizer file is named by a hash of its content, so editing it invalidates the unit.
+        prefix: o.prefix.map((e) => ({ [e.name]: e.options, ...(e.name === "tokenize" ? { encoder: encoderFor(e.options, o.baseDir).name } : {}) })),
       });
       const hit = await o.cache.lookup("read", key, ".jsonl");
       if (hit) {

@@ -3,7 +3,7 @@ import { join } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { STAGES } from "../stages/index.js";
 import { createPacker, type Packer, type PackOptions } from "../stages/pack.js";
-import type { TokenizeOptions } from "../stages/tokenize.js";
+import { createTokenize, encoderFor, tokenizeBounds, type TokenizeOptions } from "../stages/tokenize.js";
 import { listFiles } from "../sources/source.js";
 import { readUnits } from "./read-units.js";
 import { parallelTokenize } from "./cached-tokenize.js";
@@ -18,7 +18,6 @@ import { prepareStaging, publishStaging } from "../output/output-dir.js";
 import { writeManifest, type Manifest } from "../output/manifest.js";
 import { writeBuildInfo } from "../output/build-info.js";
 import { hashFile, loadHasher, unitHash } from "../lib/hash.js";
-import { loadEncoding } from "../tokenizer/index.js";
 import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { LoadedPipeline } from "./load.js";
 import { ANALYZERS, type Analyzer } from "../analysis/analyzer.js";
@@ -70,8 +69,10 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
 
   const tokOpts = config.stages.find((s) => s.name === "tokenize")!.options as TokenizeOptions;
   const packOpts = config.stages.find((s) => s.name === "pack")!.options as PackOptions;
-  const encoder = await loadEncoding(tokOpts.encoding);
-  const tokenDtype = encoder.vocabSize <= 65536 ? "uint16" : "uint32";
+  // With train, the tokenizer exists only once its stage has read the records; the EOS id and a
+  // vocabulary bound (for the token dtype) follow from the options before that.
+  const bounds = tokenizeBounds(tokOpts, p.baseDir);
+  const tokenDtype = bounds.vocabSize <= 65536 ? "uint16" : "uint32";
   const segmentDtype = packOpts.length < 65536 ? "uint16" : "uint32";
 
   const stageFiles: string[] = [];
@@ -106,7 +107,9 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   // worker threads; the rest see one stream, the tokenizer again in batches on a pool.
   const entries = config.stages.filter((e) => e.name !== "pack");
   let prefixLength = 0;
-  while (prefixLength < entries.length && STAGES[entries[prefixLength].name].perRecord) prefixLength++;
+  // A tokenizer being trained needs every record before it can tokenize one: it ends the prefix.
+  const training = (e: StageEntry) => e.name === "tokenize" && (e.options as TokenizeOptions).train !== undefined;
+  while (prefixLength < entries.length && STAGES[entries[prefixLength].name].perRecord && !training(entries[prefixLength])) prefixLength++;
   const threads = Math.max(1, opts.workers ?? availableParallelism());
   const pools: RecordPool[] = [];
   const poolFor = (stages: StageEntry[]) => {
@@ -128,10 +131,14 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     copiesOf,
     progress,
   });
+  let trained: ReturnType<typeof createTokenize> | undefined;
   for (let i = prefixLength; i < entries.length; i++) {
     const entry = entries[i];
-    if (entry.name === "tokenize") {
-      stream = parallelTokenize(entry.options as TokenizeOptions, poolFor([entry]), cache)(stream, ctx);
+    if (training(entry)) {
+      trained = createTokenize(entry.options as TokenizeOptions, { baseDir: p.baseDir, workers: threads });
+      stream = trained.stage(stream, ctx);
+    } else if (entry.name === "tokenize") {
+      stream = parallelTokenize(entry.options as TokenizeOptions, poolFor([entry]), cache, encoderFor(entry.options as TokenizeOptions, p.baseDir).name)(stream, ctx);
     } else {
       const stage = await STAGES[entry.name].create(entry.options, { baseDir: p.baseDir, workers: threads });
       stream = stage(stream, ctx);
@@ -157,7 +164,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
         segmentDtype,
         emit: packOpts.emit as Emit[],
       });
-      const packer = createPacker(packOpts, encoder.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split });
+      const packer = createPacker(packOpts, bounds.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split });
       w = { writer, packer };
       writers.set(split, w);
     }
@@ -210,7 +217,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   const manifest = await writeManifest(staging, {
     pipeline: p,
     inputs,
-    encoder,
+    encoder: trained ? trained.encoder() : encoderFor(tokOpts, p.baseDir),
     tokenize: tokOpts,
     pack: packOpts,
     tokenDtype,

@@ -1,17 +1,60 @@
-// tokenize: encodes each record's text to token ids with a byte-level BPE encoding, adding BOS/EOS.
-import { defineStage } from "./stage.js";
-import { bool, field, obj, str, type Infer } from "../pipeline/schema.js";
-import { ENCODINGS, loadEncoding, TokenBuffer, type Encoder } from "../tokenizer/index.js";
+// tokenize: encodes each record's text to token ids with a byte-level BPE (named encoding, tokenizer file, or trained here), adding BOS/EOS.
+import { resolve } from "node:path";
+import { defineStage, type Stage, type StageEnv } from "./stage.js";
+import { bool, field, list, num, obj, refine, str, type Infer, type Schema } from "../pipeline/schema.js";
+import { ENCODINGS, loadEncoding, loadTokenizerFile, MAX_TRAIN_VOCAB, TokenBuffer, trainingStage, type Encoder } from "../tokenizer/index.js";
 
-export const tokenizeOptions = obj({
+const DEFAULT_EOS = "<|endoftext|>";
+
+const trainOptions = obj({
+  vocab_size: field(num({ integer: true, min: 257, max: MAX_TRAIN_VOCAB }), { required: true }),
+  min_frequency: field(num({ integer: true, min: 1 }), { default: 2 }),
+  special_tokens: field(list(str({ nonEmpty: true }), { nonEmpty: true }), { default: [DEFAULT_EOS] }),
+});
+export type TrainTokenizerOptions = Infer<typeof trainOptions>;
+
+const base = obj({
   encoding: field(str({ oneOf: ENCODINGS }), { default: "gpt2" }),
+  tokenizer: field(str({ nonEmpty: true })),
+  train: field(trainOptions),
+  eos_token: field(str({ nonEmpty: true })),
   eos: field(bool(), { default: true }),
   bos: field(bool(), { default: false }),
 });
-export type TokenizeOptions = Infer<typeof tokenizeOptions>;
+
+/** `encoding` (default gpt2), `tokenizer` and `train` are alternatives: the raw keys are checked, since `encoding` gets a default. */
+function exclusive<T>(schema: Schema<T>): Schema<T> {
+  return {
+    describe: schema.describe,
+    check(value, path, issues) {
+      const given = typeof value === "object" && value !== null ? Object.keys(value).filter((k) => k === "encoding" || k === "tokenizer" || k === "train") : [];
+      if (given.length > 1) issues.push({ path: [...path, given[1]], atKey: true, message: `"${given.join('" and "')}" are alternatives: give one of encoding, tokenizer, train` });
+      return schema.check(value, path, issues);
+    },
+  };
+}
+
+export const tokenizeOptions = refine(exclusive(base), (o, path, issues) => {
+  const r = o as TokenizeOptions;
+  if (r.eos_token !== undefined && r.tokenizer === undefined && r.train === undefined)
+    issues.push({ path: [...path, "eos_token"], message: "eos_token applies to tokenizer or train; the named encodings end documents with <|endoftext|>" });
+  if (r.train !== undefined) {
+    const eos = r.eos_token ?? DEFAULT_EOS;
+    if (!r.train.special_tokens.includes(eos)) issues.push({ path: [...path, "train", "special_tokens"], message: `must include the eos token ${JSON.stringify(eos)}` });
+    const floor = 256 + new Set(r.train.special_tokens).size + 1;
+    if (r.train.vocab_size < floor) issues.push({ path: [...path, "train", "vocab_size"], message: `expected at least ${floor} (256 bytes, the special tokens and one merge)` });
+  }
+});
+
+/** Resolved options; `tokenizer`, `train` and `eos_token` are absent unless given. */
+export type TokenizeOptions = Omit<Infer<typeof base>, "tokenizer" | "train" | "eos_token"> & {
+  tokenizer?: string;
+  train?: TrainTokenizerOptions;
+  eos_token?: string;
+};
 
 /**
- * Token ids of one document: [BOS] text [EOS]. The encoding's end-of-text id serves as both
+ * Token ids of one document: [BOS] text [EOS]. The encoder's end-of-text id serves as both
  * markers. `buf` is scratch space reused across documents; the result is a fresh array.
  */
 export function tokenizeText(enc: Encoder, text: string, o: TokenizeOptions, buf = new TokenBuffer()): Uint32Array {
@@ -22,20 +65,65 @@ export function tokenizeText(enc: Encoder, text: string, o: TokenizeOptions, buf
   return buf.toArray();
 }
 
+/** The encoder of a `tokenize` entry without `train`: a tokenizer file (relative to baseDir) or a named encoding. */
+export function encoderFor(o: TokenizeOptions, baseDir: string): Encoder {
+  if (o.train !== undefined) throw new Error("encoderFor: a trained tokenizer exists only after its stage has read the records");
+  if (o.tokenizer !== undefined) return loadTokenizerFile(resolve(baseDir, o.tokenizer), { eosToken: o.eos_token ?? DEFAULT_EOS });
+  return loadEncoding(o.encoding);
+}
+
+/**
+ * What the run needs before any record is tokenized: the EOS id and an upper bound of the
+ * vocabulary size (for the token dtype). With `train` both follow from the options: special
+ * tokens take ids 0..k-1 and training never exceeds vocab_size.
+ */
+export function tokenizeBounds(o: TokenizeOptions, baseDir: string): { eosId: number; vocabSize: number } {
+  if (o.train !== undefined) return { eosId: [...new Set(o.train.special_tokens)].indexOf(o.eos_token ?? DEFAULT_EOS), vocabSize: o.train.vocab_size };
+  const enc = encoderFor(o, baseDir);
+  return { eosId: enc.eosId, vocabSize: enc.vocabSize };
+}
+
+/** The stage and, once known, its encoder (with `train`: after the stage has read all records). */
+export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stage; encoder(): Encoder } {
+  const buf = new TokenBuffer(1 << 16);
+  if (o.train !== undefined) {
+    let trained: Encoder | undefined;
+    const stage = trainingStage({
+      vocabSize: o.train.vocab_size,
+      minFrequency: o.train.min_frequency,
+      specialTokens: o.train.special_tokens,
+      eosToken: o.eos_token ?? DEFAULT_EOS,
+      tokenize: (enc, text) => tokenizeText(enc, text, o, buf),
+      markers: (o.bos ? 1 : 0) + (o.eos ? 1 : 0),
+      onTrained: (enc) => (trained = enc),
+    });
+    return {
+      stage,
+      encoder() {
+        if (trained === undefined) throw new Error("the tokenizer is not trained yet: the tokenize stage has not finished reading");
+        return trained;
+      },
+    };
+  }
+  const enc = encoderFor(o, env.baseDir);
+  const stage: Stage = async function* tokenize(input, ctx) {
+    for await (const r of input) {
+      r.tokens = tokenizeText(enc, r.text, o, buf);
+      if (r.tokens.length === 0) ctx.drop(r, "no-tokens");
+      else yield r;
+    }
+  };
+  return { stage, encoder: () => enc };
+}
+
 export default defineStage({
   name: "tokenize",
   summary: "byte-level BPE token ids",
+  // Per record except with `train`, which sees the whole stream: the run must not hand a
+  // training tokenize stage to the worker pool (the stage refuses to run without a workDir).
   perRecord: true,
-  options: tokenizeOptions,
-  async create(o) {
-    const enc = await loadEncoding(o.encoding);
-    const buf = new TokenBuffer(1 << 16);
-    return async function* tokenize(input, ctx) {
-      for await (const r of input) {
-        r.tokens = tokenizeText(enc, r.text, o, buf);
-        if (r.tokens.length === 0) ctx.drop(r, "no-tokens");
-        else yield r;
-      }
-    };
+  options: tokenizeOptions as Schema<TokenizeOptions>,
+  create(o, env) {
+    return createTokenize(o, env).stage;
   },
 });

@@ -75,3 +75,9 @@ function loadRanks(spec: EncodingSpec): { ranks: RankTable; file: RankFile } {
   rankTables.set(spec.name, entry);
   return entry;
 }
+
+export { MergeBpeEncoder, type BpeModel } from "./merge-encoder.js";
+export { loadTokenizerFile, tokenizerFromJson, tokenizerJson, type TokenizerFileOptions } from "./tokenizer-file.js";
+export { PretokenCounter, trainBpe, MAX_TRAIN_VOCAB, type TrainOptions } from "./train.js";
+export { trainingStage, TRAINED_FILE, type TrainStageOptions } from "./train-stage.js";
+export { BYTE_TO_CHAR, bytesToToken, tokenToBytes } from "./byte-level.js";
