@@ -34,6 +34,8 @@ export async function main(argv: string[]): Promise<number> {
       .command(encodeCommand)
       .command((await import("./inspect.js")).inspectCommand)
       .command((await import("./overlap.js")).overlapCommand)
+      .command((await import("./report.js")).reportCommand)
+      .command((await import("./init.js")).initCommand)
       .demandCommand(1, "name a command")
       .strict()
       .version(toolVersion())

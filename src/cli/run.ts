@@ -4,8 +4,7 @@ import { loadPipeline, displayPath } from "../pipeline/load.js";
 import { runPipeline } from "../pipeline/run.js";
 import { compareLocks, lockOf, readLock, writeLock } from "../output/lock.js";
 import { SiftpackError } from "../errors.js";
-import { makeLogger } from "./log.js";
-import { clearProgress, progressLine } from "./progress.js";
+import { progressDisplay } from "./progress.js";
 import { formatSummary } from "./summary.js";
 import type { CacheReport } from "../cache/build-cache.js";
 
@@ -17,6 +16,7 @@ interface Args {
   lock?: string;
   check?: boolean;
   cache?: boolean;
+  quiet?: boolean;
 }
 
 function cacheLine(c: CacheReport): string {
@@ -36,19 +36,23 @@ export const runCommand: CommandModule<object, Args> = {
       .option("lock", { type: "string", describe: "lock file: written after a build when missing (or without --check)" })
       .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds (--no-cache recomputes them)" })
       .option("check", { type: "boolean", describe: "with --lock: fail (exit 1) listing what differs from the lock, and leave it unchanged" })
+      .option("quiet", { type: "boolean", describe: "no progress lines or closing table on stderr, even on a terminal: only the JSON log" })
       .check((a) => {
         if (a.check && !a.lock) throw new SiftpackError("SP_USAGE", "--check needs --lock FILE");
         return true;
       }),
   handler: async (args) => {
-    const log = makeLogger();
+    // The display owns the logger, so that on a terminal log lines are written above the progress lines.
+    const display = progressDisplay({ quiet: args.quiet });
+    const log = display.log;
     const pipeline = await loadPipeline(args.file, { outDir: args.out });
     const locked = args.lock ? await readLock(args.lock) : undefined;
     if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
-    const onProgress = progressLine();
+    let finished = false;
     try {
-      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress, cache: args.cache, workers: args.workers });
-      clearProgress();
+      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers });
+      display.finish(true, manifest.records);
+      finished = true;
       if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits, cache }, null, 2) + "\n");
       else process.stdout.write(formatSummary(displayPath(outDir), manifest) + cacheLine(cache));
       if (args.lock) {
@@ -63,7 +67,7 @@ export const runCommand: CommandModule<object, Args> = {
         }
       }
     } finally {
-      clearProgress();
+      if (!finished) display.finish(false);
     }
   },
 };

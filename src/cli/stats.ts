@@ -1,6 +1,7 @@
 // `siftpack stats DIR`: documents, tokens, blocks, padding and cuts per split; document lengths; record fates per source.
 import type { CommandModule } from "yargs";
 import { readManifest } from "../output/manifest.js";
+import { statsFigures } from "../report/figures.js";
 import { lengthTable, pct, recordsLine, splitTable, table } from "./summary.js";
 import type { GroupStats } from "../analysis/token-stats.js";
 
@@ -16,11 +17,8 @@ export const statsCommand: CommandModule<object, Args> = {
   handler: async (args) => {
     const m = await readManifest(args.dir);
     if (args.json) {
-      // Older manifests lack padding_fraction; it is derived from the counts then.
-      const splits = Object.fromEntries(
-        Object.entries(m.splits).map(([k, s]) => [k, { ...s, shards: s.shards.length, padding_fraction: s.padding_fraction ?? (s.blocks ? s.padding_tokens / (s.blocks * m.length) : 0) }]),
-      );
-      process.stdout.write(JSON.stringify({ length: m.length, strategy: m.strategy, tokenizer: m.tokenizer.name, splits, records: m.records, token_stats: m.token_stats }, null, 2) + "\n");
+      // The same figures the HTML report embeds: one source for both.
+      process.stdout.write(JSON.stringify(statsFigures(m), null, 2) + "\n");
       return;
     }
     let out = `${args.dir}: ${m.tokenizer.name}, blocks of ${m.length} tokens (${m.dtype}), ${m.strategy} packing, build ${m.build_hash}\n\n`;

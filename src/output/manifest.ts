@@ -1,6 +1,7 @@
 // manifest.json: what was built from what, with counts and a checksum of every output file.
 import { readFile } from "node:fs/promises";
-import { basename, join } from "node:path";
+import { basename, dirname, join } from "node:path";
+import { existsSync, readFileSync } from "node:fs";
 import { createRequire } from "node:module";
 import { writeFileAtomic } from "./atomic.js";
 import { hashFile, hex64, xxh64String } from "../lib/hash.js";
@@ -37,9 +38,21 @@ export interface Manifest {
 }
 
 const require = createRequire(import.meta.url);
+
+/** A dependency's version from its package.json, found above its resolved entry point (its exports map may hide package.json). */
 function versionOf(pkg: string): string {
   try {
-    return require(`${pkg}/package.json`).version;
+    let dir = dirname(require.resolve(pkg));
+    for (;;) {
+      const candidate = join(dir, "package.json");
+      if (existsSync(candidate)) {
+        const json = JSON.parse(readFileSync(candidate, "utf8"));
+        if (json.name === pkg) return json.version;
+      }
+      const up = dirname(dir);
+      if (up === dir) return "unknown";
+      dir = up;
+    }
   } catch {
     return "unknown";
   }

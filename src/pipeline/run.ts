@@ -5,7 +5,7 @@ import { STAGES } from "../stages/index.js";
 import { createPacker, type Packer, type PackOptions } from "../stages/pack.js";
 import { createTokenize, encoderFor, tokenizeBounds, type TokenizeOptions } from "../stages/tokenize.js";
 import { listFiles } from "../sources/source.js";
-import { readUnits } from "./read-units.js";
+import { readUnits, type InputProgress } from "./read-units.js";
 import { parallelTokenize } from "./cached-tokenize.js";
 import { recordPool, type RecordPool } from "../parallel/record-pool.js";
 import { availableParallelism } from "node:os";
@@ -28,8 +28,19 @@ export interface RunOptions {
   cache?: boolean;
   /** Threads for the per-record stages and the tokenizer (default: the machine's cores). */
   workers?: number;
-  /** Called about twice a second with running counts (for a progress line). */
-  onProgress?: (p: { read: number; kept: number; dropped: number; quarantined: number }) => void;
+  /** Called at most five times a second, and whenever an input file is finished, with running counts (for a progress display). */
+  onProgress?: (p: RunProgress) => void;
+}
+
+/** Running counts: records by fate so far, and how far reading the inputs has got. */
+export interface RunProgress extends InputProgress {
+  read: number;
+  kept: number;
+  dropped: number;
+  quarantined: number;
+  /** Sum of the input files' sizes on disk, known before reading starts. */
+  bytesTotal: number;
+  filesTotal: number;
 }
 
 export interface RunResult {
@@ -94,12 +105,17 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     return w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed);
   };
   let lastProgress = 0;
-  const progress = () => {
+  let at: InputProgress = { bytesDone: 0, filesDone: 0 };
+  const bytesTotal = inputs.reduce((a, i) => a + i.size, 0);
+  // Reading reports where it is (file boundaries pass at once, so a display sees every file finish);
+  // other calls only refresh the counts.
+  const progress = (input?: InputProgress) => {
+    if (input) at = input;
     const now = Date.now();
-    if (opts.onProgress && now - lastProgress > 500) {
+    if (opts.onProgress && (now - lastProgress >= 200 || input)) {
       lastProgress = now;
       const { read, kept, dropped, quarantined } = ledger.counts;
-      opts.onProgress({ read, kept, dropped, quarantined });
+      opts.onProgress({ read, kept, dropped, quarantined, ...at, bytesTotal, filesTotal: inputs.length });
     }
   };
 

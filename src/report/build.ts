@@ -1,0 +1,62 @@
+// Builds the report for a build directory: reads the manifest and the files beside it, renders every section.
+import { readFile } from "node:fs/promises";
+import { join } from "node:path";
+import { readManifest } from "../output/manifest.js";
+import { statsFigures } from "./figures.js";
+import { funnelSection } from "./funnel-section.js";
+import { splitsSection } from "./splits.js";
+import { lengthsSection } from "./lengths.js";
+import { clustersSection, readClusters } from "./clusters.js";
+import { excerpts, type Excerpt } from "./excerpts.js";
+import { packingSection, pickMaskRow } from "./packing.js";
+import { overlapSection } from "./overlap.js";
+import { provenanceSection } from "./provenance.js";
+import { page } from "./page.js";
+import { resetIds } from "./svg.js";
+
+export interface ReportOptions {
+  /** Read the inputs again for cluster excerpts (default true). */
+  excerpts?: boolean;
+  /** Longest time spent reading inputs for excerpts, in ms (default 15 s). */
+  excerptMs?: number;
+}
+
+/** Quarantine lines shown in the report. */
+const QUARANTINE_SHOWN = 10;
+
+async function quarantineHead(dir: string): Promise<{ file: string; line: number; error: string }[]> {
+  const text = await readFile(join(dir, "quarantine.jsonl"), "utf8").catch(() => "");
+  const out = [];
+  for (const l of text.split("\n")) {
+    if (out.length === QUARANTINE_SHOWN) break;
+    if (l) out.push(JSON.parse(l));
+  }
+  return out;
+}
+
+/** The report of the build in `dir` as one HTML document (`label` is how the page names the directory). */
+export async function buildReport(dir: string, label = dir, o: ReportOptions = {}): Promise<string> {
+  resetIds();
+  const m = await readManifest(dir);
+  const figures = statsFigures(m);
+  const clusters = await readClusters(dir, m);
+  let texts = new Map<string, Excerpt>();
+  if (clusters.ran && !clusters.missing && o.excerpts !== false) {
+    texts = await excerpts(dir, m, clusters.summary.largest.map((c) => c.kept), { max: 180, deadline: Date.now() + (o.excerptMs ?? 15_000) });
+  }
+  const mask = await pickMaskRow(dir, m);
+  return page({
+    dir: label,
+    manifest: m,
+    figures,
+    sections: [
+      { id: "records", title: "Records from input to splits", nav: "Records", html: funnelSection(m, await quarantineHead(dir)) },
+      { id: "splits", title: "Documents and tokens per split and source", nav: "Splits and sources", html: splitsSection(m, figures) },
+      { id: "lengths", title: "Document lengths", nav: "Lengths", html: lengthsSection(m) },
+      { id: "clusters", title: "Near-duplicate clusters", nav: "Near-duplicates", html: clustersSection(m, clusters, texts) },
+      { id: "packing", title: "Packing: padding and cuts", nav: "Packing", html: packingSection(m, mask) },
+      { id: "overlap", title: "Overlap between splits", nav: "Overlap", html: overlapSection(m) },
+      { id: "provenance", title: "Inputs, pipeline and build", nav: "Provenance", html: provenanceSection(m) },
+    ],
+  });
+}
