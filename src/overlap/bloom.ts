@@ -10,7 +10,7 @@
 // distinct keys and unblocked bits) but measured: a key absent from the filter lands in a uniformly
 // random block b and is reported present when its k bits are all set, which happens with
 // probability about fill(b)^k; the rate is the mean of that over the blocks.
-import { fmix32 } from "./ngram-hash.js";
+import { fmix32 } from "../lib/fmix32.js";
 
 const BLOCK_WORDS = 16; // 16 × 32 bits = 512 bits = one 64-byte cache line
 

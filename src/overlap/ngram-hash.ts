@@ -8,6 +8,7 @@
 // what matters is that unequal n-grams rarely collide: tests/overlap/ngram-hash.test.ts checks that
 // on a million distinct n-grams. Two texts with a 64-bit hash in common share the n-gram except with
 // probability about (number of pairs compared) / 2^64.
+import { fmix32 } from "../lib/fmix32.js";
 
 const C1 = 0xcc9e2d51;
 const C2 = 0x1b873593;
@@ -26,15 +27,6 @@ function step(h: number, k: number): number {
   return (Math.imul(h, 5) + 0xe6546b64) | 0;
 }
 
-/** MurmurHash3's finalizer: every input bit affects every output bit. */
-export function fmix32(h: number): number {
-  h ^= h >>> 16;
-  h = Math.imul(h, 0x85ebca6b);
-  h ^= h >>> 13;
-  h = Math.imul(h, 0xc2b2ae35);
-  h ^= h >>> 16;
-  return h >>> 0;
-}
 
 const SEED_A = 0x5f3759df;
 const SEED_B = 0x2545f491;

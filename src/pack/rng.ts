@@ -1,14 +1,5 @@
 // A small seeded random number generator for row shuffling: xoshiro128** with a seed derived from (seed, label).
-
-/** MurmurHash3's 32-bit finalizer: spreads every input bit over the output. */
-function fmix32(h: number): number {
-  h ^= h >>> 16;
-  h = Math.imul(h, 0x85ebca6b);
-  h ^= h >>> 13;
-  h = Math.imul(h, 0xc2b2ae35);
-  h ^= h >>> 16;
-  return h >>> 0;
-}
+import { fmix32 } from "../lib/fmix32.js";
 
 /**
  * One 32-bit seed from the pipeline seed and a label (the split name), so each split gets its own

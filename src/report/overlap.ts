@@ -1,24 +1,10 @@
 // The overlap between splits as the build measured it (manifest "overlap"): one row per pair of splits.
 import type { Manifest } from "../output/manifest.js";
+import type { PairFigures } from "../overlap/split-overlap.js";
 import { esc, fig, note, pct, table } from "./html.js";
 import { hbars } from "./hbars.js";
 
-interface Pair {
-  reference: string;
-  held_out: string;
-  documents: number;
-  exact_duplicates: number;
-  ngram_documents: number;
-  ngram_document_fraction: number;
-  ngrams: number;
-  ngrams_seen: number;
-  ngram_fraction: number;
-  near_duplicate_pairs: number;
-  near_duplicate_documents: number;
-  jensen_shannon_bits: number;
-  cross_entropy_bits: number;
-  entropy_bits: number;
-}
+type Pair = PairFigures;
 
 interface Overlap {
   ngram: number;

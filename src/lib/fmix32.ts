@@ -1,0 +1,10 @@
+// MurmurHash3's 32-bit finalizer: a bijection that spreads every input bit over the output (used to mix seeds and hashes).
+
+export function fmix32(h: number): number {
+  h ^= h >>> 16;
+  h = Math.imul(h, 0x85ebca6b);
+  h ^= h >>> 13;
+  h = Math.imul(h, 0xc2b2ae35);
+  h ^= h >>> 16;
+  return h >>> 0;
+}
