@@ -8,6 +8,10 @@ export interface AnalyzerContext {
   config: PipelineConfig;
   /** The build directory in progress. */
   workDir: string;
+  /** The pipeline file's directory (relative paths in stage options). */
+  baseDir: string;
+  /** Threads the run may use. */
+  workers: number;
   log: Logger;
 }
 
@@ -16,6 +20,8 @@ export interface Analyzer {
   add(record: DocRecord): void | Promise<void>;
   /** Figures to merge into manifest.json under `key`. */
   finish(): Promise<unknown>;
+  /** Releases threads and temporary files; called after finish, and instead of it when the build fails. */
+  close?(): Promise<void>;
 }
 
 export interface AnalyzerFactory {

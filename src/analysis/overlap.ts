@@ -4,10 +4,11 @@ import { join } from "node:path";
 import type { AnalyzerFactory } from "./analyzer.js";
 import type { PipelineConfig } from "../pipeline/config.js";
 import { loadHasher } from "../lib/hash.js";
-import { loadEncoding } from "../tokenizer/index.js";
+import { tokenizeBounds } from "../stages/tokenize.js";
+import { OverlapRunner } from "./overlap-runner.js";
 import { dedupOptions, type MinhashOptions } from "../dedup/options.js";
 import { resolveBands } from "../dedup/lsh-params.js";
-import { SplitOverlap, type NearDupSettings } from "../overlap/split-overlap.js";
+import type { NearDupSettings } from "../overlap/split-overlap.js";
 
 /**
  * Word n-gram length of the overlap figures by default: 13, as in the contamination analysis of
@@ -32,28 +33,32 @@ export function nearDupSettings(config: PipelineConfig): NearDupSettings {
 
 export const overlapAnalyzer: AnalyzerFactory = {
   key: "overlap",
-  async create({ config, workDir, log }) {
+  async create({ config, workDir, baseDir, workers, log }) {
     // Without a held-out split there is nothing to compare: skip the (costly) n-gram and MinHash work.
     const split = config.stages.find((s) => s.name === "split");
     if (!config.overlap.enabled || !split || split.options.holdout.val + split.options.holdout.test === 0) return undefined;
     await loadHasher();
     const tokenize = config.stages.find((s) => s.name === "tokenize");
-    const vocabSize = tokenize ? loadEncoding(tokenize.options.encoding).vocabSize : 0;
+    const vocabSize = tokenize ? tokenizeBounds(tokenize.options, baseDir).vocabSize : 0;
     const tmpDir = mkdtempSync(join(workDir, ".overlap-"));
     const nearDup = config.overlap.near_duplicates ? nearDupSettings(config) : { unavailable: "switched off in the pipeline file (overlap: { near_duplicates: false })" };
-    const counter = new SplitOverlap({ ngram: config.overlap.ngram, form: "NFKC", vocabSize, nearDup, tmpDir });
+    const counter = new OverlapRunner({ ngram: config.overlap.ngram, form: "NFKC", vocabSize, nearDup, tmpDir }, workers);
     return {
       add(r) {
-        counter.add(r.split ?? "train", r.text, r.tokens);
+        return counter.add(r.split ?? "train", r.text, r.tokens);
       },
       async finish() {
         try {
-          const figures = counter.finish();
+          const figures = await counter.finish();
           if (figures.train_set.kind === "bloom") log.info({ analyzer: "overlap", train_set: figures.train_set }, "train n-grams exceeded the exact set; overlap with train uses a Bloom filter");
           return figures;
         } finally {
           rmSync(tmpDir, { recursive: true, force: true });
         }
+      },
+      async close() {
+        await counter.close();
+        rmSync(tmpDir, { recursive: true, force: true });
       },
     };
   },

@@ -163,7 +163,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
 
   const analyzers: { key: string; analyzer: Analyzer }[] = [];
   for (const f of ANALYZERS) {
-    const analyzer = await f.create({ config, workDir: staging, log });
+    const analyzer = await f.create({ config, workDir: staging, baseDir: p.baseDir, workers: threads, log });
     if (analyzer) analyzers.push({ key: f.key, analyzer });
   }
 
@@ -208,6 +208,8 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     }
     await ledger.close();
   } catch (err) {
+    // A failed build never calls finish(): release the analyzers' threads and files here.
+    for (const a of analyzers) await a.analyzer.close?.().catch(() => {});
     if (err instanceof SiftpackError) throw err;
     const code = (err as NodeJS.ErrnoException)?.code;
     if (typeof code === "string" && /^E[A-Z]+$/.test(code))
@@ -219,6 +221,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
 
   const c = ledger.counts;
   if (c.read > 0 && c.quarantined / c.read > config.max_bad_fraction) {
+    for (const a of analyzers) await a.analyzer.close?.().catch(() => {});
     throw new SiftpackError(
       "SP_BAD_FRACTION",
       `${c.quarantined} of ${c.read} input records (${((100 * c.quarantined) / c.read).toFixed(1)} %) were quarantined, more than max_bad_fraction ${config.max_bad_fraction}; see ${join(staging, "quarantine.jsonl")}`,
