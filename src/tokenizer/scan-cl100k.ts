@@ -3,7 +3,7 @@
 //   (?i:'s|'t|'re|'ve|'m|'ll|'d)|[^\r\n\p{L}\p{N}]?\p{L}+|\p{N}{1,3}| ?[^\s\p{L}\p{N}]+[\r\n]*|\s*[\r\n]+|\s+(?!\S)|\s+
 
 import { NUM } from "./unicode-classes.js";
-import { codePointAt, contractionEnd, foldContraction, isLetter, isOther, spaceRunEnd, trailingSpaceEnd, width } from "./scan-common.js";
+import { codePointAt, contractionEnd, digitsEnd, foldContraction, isLetter, symbolsEnd, whitespaceEnd, width } from "./scan-common.js";
 
 export function scanCl100k(text: string, i: number, cls: Uint8Array): number {
   const n = text.length;
@@ -31,37 +31,17 @@ export function scanCl100k(text: string, i: number, cls: Uint8Array): number {
   }
 
   // \p{N}{1,3}
-  if (k0 === NUM) {
-    let e = i + w0;
-    for (let count = 1; count < 3 && e < n; count++) {
-      const c = codePointAt(text, e);
-      if (cls[c] !== NUM) break;
-      e += width(c);
-    }
-    return e;
-  }
+  if (k0 === NUM) return digitsEnd(text, i, w0, cls);
 
   //  ?[^\s\p{L}\p{N}]+[\r\n]*
-  let j = -1;
-  if (isOther(k0)) j = i;
-  else if (c0 === 32 && i + 1 < n && isOther(cls[codePointAt(text, i + 1)])) j = i + 1;
-  if (j >= 0) {
-    let e = j;
-    while (e < n) {
-      const c = codePointAt(text, e);
-      if (!isOther(cls[c])) break;
-      e += width(c);
-    }
-    while (e < n && (text.charCodeAt(e) === 10 || text.charCodeAt(e) === 13)) e++;
-    return e;
-  }
+  const e = symbolsEnd(text, i, c0, k0, cls, isLineBreak);
+  if (e >= 0) return e;
 
-  // Only White_Space is left. \s*[\r\n]+ : through the last CR/LF of the run, if any.
-  const end = spaceRunEnd(text, i, cls);
-  for (let p = end - 1; p >= i; p--) {
-    const c = text.charCodeAt(p);
-    if (c === 10 || c === 13) return p + 1;
-  }
-  return trailingSpaceEnd(text, i, end);
+  return whitespaceEnd(text, i, cls);
 }
 
+
+/** The code units that may trail a run of symbols in this pattern: CR and LF. */
+function isLineBreak(c: number): boolean {
+  return c === 10 || c === 13;
+}

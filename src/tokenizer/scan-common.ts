@@ -1,6 +1,6 @@
 // Shared pieces of the hand-written pre-token scanners: code point access and class tests.
 
-import { LL, LM, LO, LT, LU, MARK, OTHER, WS } from "./unicode-classes.js";
+import { LL, LM, LO, LT, LU, MARK, NUM, OTHER, WS } from "./unicode-classes.js";
 
 /**
  * A scanner returns the end (exclusive, in UTF-16 units) of the pre-token that starts at `i`
@@ -81,4 +81,45 @@ export function contractionEnd(text: string, i: number, fold: (c: number) => num
 
 export function identity(c: number): number {
   return c;
+}
+
+/** End of `\p{N}{1,3}` starting at i (whose first code point, of width w0, is a number). */
+export function digitsEnd(text: string, i: number, w0: number, cls: Uint8Array): number {
+  const n = text.length;
+  let e = i + w0;
+  for (let count = 1; count < 3 && e < n; count++) {
+    const c = codePointAt(text, e);
+    if (cls[c] !== NUM) break;
+    e += width(c);
+  }
+  return e;
+}
+
+/**
+ * End of ` ?[^\s\p{L}\p{N}]+` followed by any run of the code units in `trailing` (CR, LF, and
+ * for o200k also "/"), or -1 when the text at i does not start such a piece.
+ */
+export function symbolsEnd(text: string, i: number, c0: number, k0: number, cls: Uint8Array, trailing: (c: number) => boolean): number {
+  const n = text.length;
+  let e = -1;
+  if (isOther(k0)) e = i;
+  else if (c0 === 32 && i + 1 < n && isOther(cls[codePointAt(text, i + 1)])) e = i + 1;
+  if (e < 0) return -1;
+  while (e < n) {
+    const c = codePointAt(text, e);
+    if (!isOther(cls[c])) break;
+    e += width(c);
+  }
+  while (e < n && trailing(text.charCodeAt(e))) e++;
+  return e;
+}
+
+/** Only White_Space is left: `\s*[\r\n]+` through the last CR/LF of the run, else the space rules. */
+export function whitespaceEnd(text: string, i: number, cls: Uint8Array): number {
+  const end = spaceRunEnd(text, i, cls);
+  for (let p = end - 1; p >= i; p--) {
+    const c = text.charCodeAt(p);
+    if (c === 10 || c === 13) return p + 1;
+  }
+  return trailingSpaceEnd(text, i, end);
 }

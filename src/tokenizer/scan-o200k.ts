@@ -9,15 +9,15 @@
 
 import { LL, NUM } from "./unicode-classes.js";
 import {
+  digitsEnd,
+  symbolsEnd,
+  whitespaceEnd,
   codePointAt,
   contractionEnd,
   foldContraction,
   isLetter,
   isLowerish,
-  isOther,
   isUpperish,
-  spaceRunEnd,
-  trailingSpaceEnd,
   width,
 } from "./scan-common.js";
 
@@ -95,40 +95,16 @@ export function scanO200k(text: string, i: number, cls: Uint8Array): number {
   if (isUpperish(k0)) return withContraction(text, upperRun(text, i, cls));
 
   // \p{N}{1,3}
-  if (k0 === NUM) {
-    let e = i + w0;
-    for (let count = 1; count < 3 && e < n; count++) {
-      const c = codePointAt(text, e);
-      if (cls[c] !== NUM) break;
-      e += width(c);
-    }
-    return e;
-  }
+  if (k0 === NUM) return digitsEnd(text, i, w0, cls);
 
   //  ?[^\s\p{L}\p{N}]+[\r\n/]*
-  let j = -1;
-  if (isOther(k0)) j = i;
-  else if (c0 === 32 && i + 1 < n && isOther(cls[codePointAt(text, i + 1)])) j = i + 1;
-  if (j >= 0) {
-    let e = j;
-    while (e < n) {
-      const c = codePointAt(text, e);
-      if (!isOther(cls[c])) break;
-      e += width(c);
-    }
-    while (e < n) {
-      const c = text.charCodeAt(e);
-      if (c !== 10 && c !== 13 && c !== 47) break;
-      e++;
-    }
-    return e;
-  }
+  const e = symbolsEnd(text, i, c0, k0, cls, isLineBreakOrSlash);
+  if (e >= 0) return e;
 
-  // Only White_Space is left. \s*[\r\n]+ : through the last CR/LF of the run, if any.
-  const end = spaceRunEnd(text, i, cls);
-  for (let p = end - 1; p >= i; p--) {
-    const c = text.charCodeAt(p);
-    if (c === 10 || c === 13) return p + 1;
-  }
-  return trailingSpaceEnd(text, i, end);
+  return whitespaceEnd(text, i, cls);
+}
+
+/** The code units that may trail a run of symbols in this pattern: CR, LF and "/". */
+function isLineBreakOrSlash(c: number): boolean {
+  return c === 10 || c === 13 || c === 47;
 }
