@@ -2,6 +2,7 @@
 // per token and length percentiles, under "token_stats" in manifest.json.
 import type { AnalyzerFactory } from "./analyzer.js";
 import type { DocRecord } from "../types.js";
+import { uint32s } from "../lib/grow.js";
 
 export interface GroupStats {
   documents: number;
@@ -17,22 +18,19 @@ export interface GroupStats {
 
 /** Lengths of one group, in a growable typed array (4 bytes a document). */
 class Lengths {
-  private a = new Uint32Array(1024);
-  n = 0;
+  private readonly a = uint32s();
   tokens = 0;
   bytes = 0;
+  get n(): number {
+    return this.a.length;
+  }
   push(len: number, bytes: number): void {
-    if (this.n === this.a.length) {
-      const b = new Uint32Array(this.a.length * 2);
-      b.set(this.a);
-      this.a = b;
-    }
-    this.a[this.n++] = len;
+    this.a.push(len);
     this.tokens += len;
     this.bytes += bytes;
   }
   stats(): GroupStats {
-    const sorted = this.a.slice(0, this.n).sort();
+    const sorted = this.a.view().slice().sort();
     const rank = (p: number) => (this.n === 0 ? 0 : sorted[Math.min(this.n - 1, Math.ceil(p * this.n) - 1)]);
     return {
       documents: this.n,

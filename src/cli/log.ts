@@ -2,6 +2,7 @@
 import pino from "pino";
 import type { Logger } from "../types.js";
 
-export function makeLogger(level: string = process.env.SIFTPACK_LOG ?? "info"): Logger {
-  return pino({ level, base: undefined }, pino.destination({ fd: 2, sync: true }));
+/** `sink` replaces stderr, e.g. with a writer that keeps progress bars below the log lines. */
+export function makeLogger(level: string = process.env.SIFTPACK_LOG ?? "info", sink?: { write(s: string): void }): Logger {
+  return pino({ level, base: undefined }, sink ?? pino.destination({ fd: 2, sync: true }));
 }

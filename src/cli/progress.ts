@@ -1,6 +1,5 @@
 // Build progress on stderr: two redrawn lines and a closing table on a terminal; pino lines anywhere else.
 import { readdirSync, readFileSync, readlinkSync, realpathSync } from "node:fs";
-import pino from "pino";
 import type { RunProgress } from "../pipeline/run.js";
 import type { Logger } from "../types.js";
 import type { FateCounts } from "../output/ledger.js";
@@ -256,8 +255,7 @@ export function progressDisplay(o: DisplayOptions = {}): ProgressDisplay {
     },
   };
   return {
-    // The options of makeLogger, with the sink in place of fd 2.
-    log: pino({ level, base: undefined }, sink),
+    log: makeLogger(level, sink),
     update(p) {
       const first = state.last === undefined;
       state.update(p, Date.now());

@@ -1,5 +1,5 @@
 // One held-out split's documents as n-gram slots and text fingerprints, with "seen in train" marks.
-import { bytes, int32s, uint32s } from "./grow.js";
+import { bytes, int32s, uint32s } from "../lib/grow.js";
 import { HashMap64 } from "./hash-map64.js";
 
 /**

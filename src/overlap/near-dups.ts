@@ -3,7 +3,7 @@ import { closeSync, openSync, readSync, rmSync, writeSync } from "node:fs";
 import { join } from "node:path";
 import { BatchSigner, type SignerParams } from "../dedup/signer.js";
 import { estimateJaccard } from "../dedup/signature.js";
-import { uint32s, type Grow } from "./grow.js";
+import { uint32s, type Grow } from "../lib/grow.js";
 
 /** Texts signed per batch. */
 const BATCH = 256;

@@ -8,7 +8,7 @@
 // encodes text that looks like a special token as plain text) — they only get ids and decode.
 
 import { createHash } from "node:crypto";
-import { readFileSync } from "node:fs";
+import { readFileSync, statSync } from "node:fs";
 import { basename } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { bytesToToken, tokenToBytes } from "./byte-level.js";
@@ -24,7 +24,28 @@ export interface TokenizerFileOptions {
 type Json = Record<string, unknown>;
 
 /** Loads the tokenizer file at `path` (synchronously, so a worker builds it the same way). Throws SP_TOKENIZER. */
+/**
+ * A build asks for its tokenizer file several times (the dtype bound, cache keys per input file,
+ * the manifest, each worker): parse it once per path, options and file size and time.
+ */
+const loaded = new Map<string, MergeBpeEncoder>();
+
 export function loadTokenizerFile(path: string, options: TokenizerFileOptions = {}): MergeBpeEncoder {
+  let key: string | undefined;
+  try {
+    const st = statSync(path);
+    key = JSON.stringify([path, options, st.size, st.mtimeMs]);
+  } catch {
+    key = undefined; // readFile below reports the error
+  }
+  const hit = key && loaded.get(key);
+  if (hit) return hit;
+  const enc = parseTokenizerFile(path, options);
+  if (key) loaded.set(key, enc);
+  return enc;
+}
+
+function parseTokenizerFile(path: string, options: TokenizerFileOptions): MergeBpeEncoder {
   let text: string;
   try {
     text = readFileSync(path, "utf8");
