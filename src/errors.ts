@@ -15,6 +15,8 @@ export const ERROR_CODES = {
   SP_LOCK: "the lock file is unreadable, or the build differs from it",
   SP_STAGE: "a stage failed on a record",
   SP_OVERLAP: "overlap between splits is above the allowed rate",
+  SP_TASK_ORDER: "a task's phase cannot start: a task of an earlier phase has not finished",
+  SP_WORK: "the work directory of a task plan is missing or unreadable",
 } as const;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

@@ -6,7 +6,7 @@ export interface Origin {
   line: number;
 }
 
-/** One document. `id` is unique within its source; `seq` is the global input order (0-based). */
+/** One document. `id` is unique within its source; `seq` is its row in its input file (0-based, bad rows counted): with the file, its place in input order. */
 export interface DocRecord {
   id: string;
   source: string;

@@ -16,6 +16,8 @@ const EXIT: Record<ErrorCode, 1 | 2> = {
   SP_LOCK: 1,
   SP_STAGE: 1,
   SP_OVERLAP: 1,
+  SP_TASK_ORDER: 1,
+  SP_WORK: 1,
 };
 
 describe("error codes", () => {

@@ -6,10 +6,11 @@ import { createInterface } from "node:readline";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
 
+// `i` is the row's place in its input file (0-based, bad rows counted): the order the ledger follows.
 export type UnitEvent =
-  | { k: "bad"; entry: QuarantineEntry }
-  | { k: "drop"; id: string; source: string; file: string; line: number; reason: string; detail?: Record<string, unknown> }
-  | { k: "rec"; id: string; source: string; file: string; line: number; text: string; meta: Record<string, unknown>; tokens?: string }
+  | { k: "bad"; i: number; entry: QuarantineEntry }
+  | { k: "drop"; i: number; id: string; source: string; file: string; line: number; reason: string; detail?: Record<string, unknown> }
+  | { k: "rec"; i: number; id: string; source: string; file: string; line: number; text: string; meta: Record<string, unknown>; split?: string; cluster?: string; tokens?: string }
   /** Last: rows read from the file, and the stage counters the prefix stages raised on them. */
   | { k: "end"; rows: number; counts: Record<string, number> };
 
@@ -25,7 +26,32 @@ export function tokensFromText(s: string): Uint32Array {
 }
 
 export function recordEvent(r: DocRecord): UnitEvent {
-  return { k: "rec", id: r.id, source: r.source, file: r.origin.file, line: r.origin.line, text: r.text, meta: r.meta, ...(r.tokens ? { tokens: tokensToText(r.tokens) } : {}) };
+  return {
+    k: "rec",
+    i: r.seq,
+    id: r.id,
+    source: r.source,
+    file: r.origin.file,
+    line: r.origin.line,
+    text: r.text,
+    meta: r.meta,
+    ...(r.split !== undefined ? { split: r.split } : {}),
+    ...(r.cluster !== undefined ? { cluster: r.cluster } : {}),
+    ...(r.tokens ? { tokens: tokensToText(r.tokens) } : {}),
+  };
+}
+
+export function dropEvent(r: DocRecord, reason: string, detail?: Record<string, unknown>): UnitEvent {
+  return { k: "drop", i: r.seq, id: r.id, source: r.source, file: r.origin.file, line: r.origin.line, reason, ...(detail ? { detail } : {}) };
+}
+
+/** The record an event carries, `seq` being its row in the file. */
+export function eventRecord(e: Extract<UnitEvent, { k: "rec" }>): DocRecord {
+  const r: DocRecord = { id: e.id, source: e.source, text: e.text, meta: e.meta, origin: { file: e.file, line: e.line }, seq: e.i };
+  if (e.split !== undefined) r.split = e.split;
+  if (e.cluster !== undefined) r.cluster = e.cluster;
+  if (e.tokens !== undefined) r.tokens = tokensFromText(e.tokens);
+  return r;
 }
 
 /**

@@ -36,6 +36,8 @@ export async function main(argv: string[]): Promise<number> {
       .command((await import("./overlap.js")).overlapCommand)
       .command((await import("./report.js")).reportCommand)
       .command((await import("./init.js")).initCommand)
+      .command((await import("./task.js")).taskCommand)
+      .command((await import("./status.js")).statusCommand)
       .demandCommand(1, "name a command")
       .strict()
       .version(toolVersion())

@@ -84,7 +84,7 @@ export async function writeManifest(dir: string, m: ManifestInput): Promise<Mani
   const files = [...m.files];
   for (const name of ["ledger.jsonl.gz", "quarantine.jsonl", ...(m.extraFiles ?? [])]) files.push({ path: name, ...(await hashFile(join(dir, name))) });
   files.sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
-  const resolved = { ...m.pipeline.config, output: { shard_blocks: m.pipeline.config.output.shard_blocks } };
+  const resolved = { ...m.pipeline.config, output: { shard_blocks: m.pipeline.config.output.shard_blocks }, cluster: undefined };
   const manifest: Manifest = {
     format: FORMAT,
     tool: {

@@ -29,7 +29,7 @@ export interface BatchRecord {
 /** Items keep their input order; `bad` and `drop` items pass through untouched, for the ledger. */
 export type BatchItem =
   | { k: "rec"; r: BatchRecord }
-  | { k: "bad"; entry: QuarantineEntry }
+  | { k: "bad"; entry: QuarantineEntry; i?: number }
   | { k: "drop"; r: BatchRecord; reason: string; detail?: Record<string, unknown> };
 
 /** Results in the same order: tokens of kept records concatenated in `tokens`, their ends in `ends`. */

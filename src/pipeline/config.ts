@@ -76,6 +76,14 @@ export const pipelineSchema = obj({
     }),
     { required: true },
   ),
+  /** The build as phases of tasks: tasks per phase, and the work directory they share. */
+  cluster: field(
+    obj({
+      tasks: field(num({ integer: true, min: 1, max: 100000 }), { default: 8 }),
+      work_dir: field(str({ nonEmpty: true })),
+    }),
+    { default: { tasks: 8, work_dir: undefined } },
+  ),
 });
 
 export type PipelineConfig = Infer<typeof pipelineSchema>;

@@ -88,8 +88,9 @@ export async function loadPipeline(file: string, overrides: { outDir?: string } 
   const baseDir = dirname(resolve(file));
   const outDir = overrides.outDir ? resolve(overrides.outDir) : isAbsolute(config.output.dir) ? config.output.dir : resolve(baseDir, config.output.dir);
   await loadHasher();
-  // The output directory is not part of the hash: the same data built elsewhere is the same build.
-  const hashed = { ...config, output: { ...config.output, dir: undefined } };
+  // The output directory is not part of the hash: the same data built elsewhere is the same build;
+  // nor is how the work is cut into tasks (`cluster`), which never changes a byte of the result.
+  const hashed = { ...config, output: { ...config.output, dir: undefined }, cluster: undefined };
   return { file, baseDir, config, outDir, hash: hex64(xxh64String(canonicalJson(hashed))) };
 }
 

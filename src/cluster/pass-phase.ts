@@ -1,0 +1,88 @@
+// Per-file phases after read: each input file's records (with the decisions since they were last
+// written applied) go through per-record stages on the worker pool, tokenize with its cache, and
+// the collector of the next global step; records and drops are written per file.
+import { orderedMap } from "../parallel/pool.js";
+import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, recordPool, type RecordPool } from "../parallel/record-pool.js";
+import { toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
+import { parallelTokenize } from "../pipeline/cached-tokenize.js";
+import { recordFailure } from "../pipeline/read-units.js";
+import { encoderFor, type TokenizeOptions } from "../stages/tokenize.js";
+import type { BuildCache } from "../cache/build-cache.js";
+import type { Stage } from "../stages/stage.js";
+import type { StageEntry } from "../pipeline/config.js";
+import type { DocRecord, StageContext } from "../types.js";
+
+/** Per-record stages as one stream stage: batches go to the pool, results come back in order. */
+export function poolStage(pool: RecordPool): Stage {
+  return async function* pooled(input, ctx) {
+    async function* batches(): AsyncGenerator<BatchItem[]> {
+      let batch: BatchItem[] = [];
+      let bytes = 0;
+      for await (const r of input) {
+        batch.push({ k: "rec", r: toBatchRecord(r) });
+        bytes += r.text.length;
+        if (batch.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
+          yield batch;
+          batch = [];
+          bytes = 0;
+        }
+      }
+      if (batch.length > 0) yield batch;
+    }
+    try {
+      for await (const { result } of orderedMap(batches(), (b) => pool.submit(b), BATCHES_AHEAD)) {
+        for (const [name, n] of Object.entries(result.counts)) ctx.count(name, n);
+        for (const { item, record } of unpack(result)) {
+          if (item.k === "drop") ctx.drop(fromItem(item), item.reason, item.detail);
+          else if (item.k === "rec") yield record!;
+        }
+      }
+    } catch (err) {
+      throw recordFailure(err);
+    }
+  };
+}
+
+function fromItem(item: Extract<BatchItem, { k: "drop" }>): DocRecord {
+  const b = item.r;
+  return { id: b.id, source: b.source, text: b.text, meta: b.meta, origin: { file: b.file, line: b.line }, seq: b.seq };
+}
+
+/** The stream stages of a per-file phase: consecutive per-record stages share one pool; tokenize has its own (and its cache). */
+export class PassStages {
+  private readonly pools: RecordPool[] = [];
+  private readonly parts: ((s: AsyncIterable<DocRecord>, ctx: StageContext) => AsyncIterable<DocRecord>)[] = [];
+
+  constructor(entries: StageEntry[], baseDir: string, seed: number, threads: number, cache: BuildCache) {
+    let run: StageEntry[] = [];
+    const flush = () => {
+      if (run.length === 0) return;
+      const pool = recordPool({ stages: run, baseDir, seed }, threads);
+      this.pools.push(pool);
+      this.parts.push(poolStage(pool));
+      run = [];
+    };
+    for (const e of entries) {
+      if (e.name !== "tokenize") {
+        run.push(e);
+        continue;
+      }
+      flush();
+      const o = e.options as TokenizeOptions;
+      const pool = recordPool({ stages: [e], baseDir, seed }, threads);
+      this.pools.push(pool);
+      this.parts.push(parallelTokenize(o, pool, cache, encoderFor(o, baseDir).name));
+    }
+    flush();
+  }
+
+  run(input: AsyncIterable<DocRecord>, ctx: StageContext): AsyncIterable<DocRecord> {
+    let s = input;
+    for (const part of this.parts) s = part(s, ctx);
+    return s;
+  }
+
+  async close(): Promise<void> {
+    for (const p of this.pools) await p.close();
+  }
+}

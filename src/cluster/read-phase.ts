@@ -1,0 +1,131 @@
+// The read phase: each input file of the task's share is read, mapped and run through the leading
+// per-record stages (in batches on the worker pool), its fates written in row order to
+// read/units/<u>.jsonl. The same file is the build cache's entry for it, so a rerun with the same
+// file and settings copies it instead of redoing the work.
+import { copyFile, mkdir, rename } from "node:fs/promises";
+import { dirname, join } from "node:path";
+import { readSourceFile, RecordMapper } from "../sources/source.js";
+import { BuildCache } from "../cache/build-cache.js";
+import { eventRecord, readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
+import { toolVersion } from "../output/manifest.js";
+import { orderedMap } from "../parallel/pool.js";
+import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
+import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
+import { recordFailure } from "../pipeline/read-units.js";
+import { encoderFor } from "../stages/tokenize.js";
+import { hashFile } from "../lib/hash.js";
+import { SiftpackError, describeSystemError } from "../errors.js";
+import type { DocRecord } from "../types.js";
+import type { StageEntry } from "../pipeline/config.js";
+import type { Collector } from "./collect.js";
+import { unitsFile, type TaskEnv } from "./unit-io.js";
+import { AtomicStream } from "./workdir.js";
+
+export interface ReadUnitResult {
+  rows: number;
+  records: number;
+  size: number;
+  xxh64: string;
+  counts: Record<string, number>;
+}
+
+export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, cache: BuildCache, collector?: Collector, progress?: () => void): Promise<ReadUnitResult> {
+  const { p } = env;
+  const unit = env.units[u];
+  const spec = unit.source;
+  const { size, xxh64 } = await hashFile(join(p.baseDir, unit.path)).catch((err) => {
+    throw new SiftpackError("SP_INPUT_MISSING", `source "${spec.name}": cannot read ${unit.path}: ${describeSystemError(err)}`, { cause: err });
+  });
+  const key = BuildCache.key({
+    unit: "read",
+    siftpack: toolVersion(),
+    source: spec,
+    file: unit.path,
+    size,
+    xxh64,
+    seed: p.config.seed,
+    // A tokenizer file is named by a hash of its content, so editing it invalidates the unit.
+    prefix: entries.map((e) => ({ [e.name]: e.options, ...(e.name === "tokenize" ? { encoder: encoderFor(e.options, p.baseDir).name } : {}) })),
+  });
+  const out = unitsFile(env.plan.workDir, env.phase.name, u);
+  const hit = await cache.lookup("read", key, ".jsonl");
+  let end: Extract<UnitEvent, { k: "end" }> | undefined;
+  let records = 0;
+  if (hit) {
+    cache.report.read.reused++;
+    for await (const e of readEvents(hit)) {
+      if (e.k === "rec") {
+        records++;
+        await collector?.add(eventRecord(e));
+      } else if (e.k === "end") end = e;
+    }
+    if (!end) throw new SiftpackError("SP_OUTPUT", `cache entry ${hit} ends without its end marker; remove it and run again`);
+    const tmp = `${out}.tmp-${Math.random().toString(16).slice(2, 10).padEnd(8, "0")}`;
+    await mkdir(dirname(out), { recursive: true });
+    await copyFile(hit, tmp);
+    await rename(tmp, out);
+  } else {
+    cache.report.read.computed++;
+    const r = await computeUnit(env, u, entries, pool, out, collector, progress);
+    end = r.end;
+    records = r.records;
+    const pending = cache.pending("read", key, ".jsonl");
+    await copyFile(out, pending.tmp);
+    await pending.commit();
+  }
+  return { rows: end.rows, records, size, xxh64, counts: end.counts };
+}
+
+async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, path: string, collector?: Collector, progress?: () => void) {
+  const unit = env.units[u];
+  const spec = unit.source;
+  const mapper = new RecordMapper(spec);
+  const out = await AtomicStream.open(path);
+  const counts: Record<string, number> = {};
+  let records = 0;
+  async function* batches(): AsyncGenerator<BatchItem[]> {
+    let batch: BatchItem[] = [];
+    let bytes = 0;
+    for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper)) {
+      const i = mapper.rows - 1;
+      if (item.kind === "bad") batch.push({ k: "bad", entry: item.entry, i });
+      else {
+        const r: DocRecord = { id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i };
+        batch.push({ k: "rec", r: toBatchRecord(r) });
+        bytes += item.text.length;
+      }
+      if (batch.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
+        yield batch;
+        batch = [];
+        bytes = 0;
+      }
+    }
+    if (batch.length > 0) yield batch;
+  }
+  try {
+    for await (const { result } of orderedMap(batches(), (b) => pool.submit(b), BATCHES_AHEAD)) {
+      for (const [name, n] of Object.entries(result.counts)) counts[name] = (counts[name] ?? 0) + n;
+      let lines = "";
+      for (const { item, record } of unpack(result)) {
+        if (item.k === "bad") lines += JSON.stringify({ k: "bad", i: item.i!, entry: item.entry } satisfies UnitEvent) + "\n";
+        else if (item.k === "drop") {
+          const r = fromBatchRecord(item.r);
+          lines += JSON.stringify({ k: "drop", i: r.seq, id: r.id, source: r.source, file: r.origin.file, line: r.origin.line, reason: item.reason, ...(item.detail ? { detail: item.detail } : {}) } satisfies UnitEvent) + "\n";
+        } else {
+          records++;
+          lines += JSON.stringify(recordEvent(record!)) + "\n";
+          await collector?.add(record!);
+        }
+      }
+      await out.write(lines);
+      progress?.();
+    }
+    const end: Extract<UnitEvent, { k: "end" }> = { k: "end", rows: mapper.rows, counts };
+    await out.write(JSON.stringify(end) + "\n");
+    await out.commit();
+    return { end, records };
+  } catch (err) {
+    await out.abort();
+    throw recordFailure(err);
+  }
+}
