@@ -4,18 +4,85 @@ import { stringify } from "yaml";
 import { loadPipeline, displayPath } from "../pipeline/load.js";
 import { listFiles } from "../sources/source.js";
 import { STAGES } from "../stages/index.js";
+import { dirname, join, resolve } from "node:path";
+import { fileURLToPath } from "node:url";
+import { planPhases } from "../cluster/plan.js";
+import { slurmFiles } from "../cluster/emit-slurm.js";
+import { kubernetesFiles } from "../cluster/emit-kubernetes.js";
+import { writeLaunchFiles } from "../cluster/launch-file.js";
 
 interface Args {
   file: string;
   json?: boolean;
+  tasks?: boolean;
+  emit?: "slurm" | "kubernetes";
+  to?: string;
+  cpus?: number;
+  partition?: string;
+  time?: string;
+  mem?: string;
+  image?: string;
+  claim?: string;
+  mount?: string;
+  parallelism?: number;
+  wait?: string;
+}
+
+/** How the nodes start siftpack: this installation's node and bin script (a shared install, or the same path in the image). */
+const selfCommand = () => [process.execPath, fileURLToPath(new URL("../../bin/siftpack.js", import.meta.url))];
+
+async function taskPlanOutput(args: Args): Promise<void> {
+  const p = await loadPipeline(args.file);
+  const plan = planPhases(p);
+  const info = { pipeline: plan.pipeline, workDir: plan.workDir, outDir: plan.outDir, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) };
+  if (args.emit) {
+    const dir = resolve(args.to ?? join(plan.workDir, "launch", args.emit));
+    const files =
+      args.emit === "slurm"
+        ? slurmFiles(info, { command: selfCommand(), cpusPerTask: args.cpus ?? 2, partition: args.partition, time: args.time, mem: args.mem })
+        : kubernetesFiles(info, {
+            command: args.image ? ["siftpack"] : selfCommand(),
+            image: args.image ?? "node:20",
+            claim: args.claim ?? "siftpack-work",
+            mountPath: args.mount ?? dirname(plan.pipeline),
+            parallelism: args.parallelism ?? 8,
+            cpu: String(args.cpus ?? 2),
+            waitTimeout: args.wait ?? "24h",
+          });
+    for (const path of await writeLaunchFiles(dir, files)) process.stdout.write(`${displayPath(path)}\n`);
+    return;
+  }
+  if (args.json) {
+    process.stdout.write(JSON.stringify(info, null, 2) + "\n");
+    return;
+  }
+  let out = `# task plan for ${displayPath(plan.pipeline)}: work directory ${displayPath(plan.workDir)}, output ${displayPath(plan.outDir)}\n`;
+  const w = Math.max(...plan.phases.map((ph) => ph.name.length));
+  for (const ph of plan.phases) out += `${ph.name.padEnd(w)}  ${String(ph.tasks).padStart(5)} task${ph.tasks === 1 ? " " : "s"}  ${ph.summary}\n`;
+  process.stdout.write(out);
 }
 
 export const planCommand: CommandModule<object, Args> = {
   command: "plan <file>",
   describe: "validate a pipeline file and print the resolved plan",
   builder: (y) =>
-    y.positional("file", { type: "string", demandOption: true }).option("json", { type: "boolean", describe: "print the plan as JSON" }),
+    y
+      .positional("file", { type: "string", demandOption: true })
+      .option("json", { type: "boolean", describe: "print the plan as JSON" })
+      .option("tasks", { type: "boolean", describe: "print the phases of the build as tasks, with their task counts (cluster.tasks)" })
+      .option("emit", { choices: ["slurm", "kubernetes"] as const, describe: "write launch files for a batch scheduler: sbatch scripts or indexed Job manifests, one per phase, and submit.sh" })
+      .option("to", { type: "string", describe: "with --emit: the directory to write to (default: <work dir>/launch/<scheduler>)" })
+      .option("cpus", { type: "number", describe: "with --emit: CPUs per task (default 2)" })
+      .option("partition", { type: "string", describe: "with --emit slurm: the partition" })
+      .option("time", { type: "string", describe: "with --emit slurm: time limit per task (sbatch --time)" })
+      .option("mem", { type: "string", describe: "with --emit slurm: memory per node (sbatch --mem)" })
+      .option("image", { type: "string", describe: "with --emit kubernetes: container image with siftpack installed (default node:20 running this installation's path)" })
+      .option("claim", { type: "string", describe: "with --emit kubernetes: PersistentVolumeClaim of the shared volume (default siftpack-work)" })
+      .option("mount", { type: "string", describe: "with --emit kubernetes: where the volume is mounted (default: the pipeline file's directory)" })
+      .option("parallelism", { type: "number", describe: "with --emit kubernetes: pods of a phase at once (default 8)" })
+      .option("wait", { type: "string", describe: "with --emit kubernetes: how long submit.sh waits for a phase (default 24h)" }),
   handler: async (args) => {
+    if (args.tasks || args.emit) return taskPlanOutput(args);
     const p = await loadPipeline(args.file);
     const files: Record<string, string[]> = {};
     for (const s of p.config.sources) files[s.name] = await listFiles(s, p.baseDir);

@@ -17,6 +17,7 @@ interface Args {
   check?: boolean;
   cache?: boolean;
   quiet?: boolean;
+  keepWork?: boolean;
 }
 
 function cacheLine(c: CacheReport): string {
@@ -36,6 +37,7 @@ export const runCommand: CommandModule<object, Args> = {
       .option("lock", { type: "string", describe: "lock file: written after a build when missing (or without --check)" })
       .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds (--no-cache recomputes them)" })
       .option("check", { type: "boolean", describe: "with --lock: fail (exit 1) listing what differs from the lock, and leave it unchanged" })
+      .option("keep-work", { type: "boolean", describe: "keep the phases' work directory (.<out>.run beside the output) after the build" })
       .option("quiet", { type: "boolean", describe: "no progress lines or closing table on stderr, even on a terminal: only the JSON log" })
       .check((a) => {
         if (a.check && !a.lock) throw new SiftpackError("SP_USAGE", "--check needs --lock FILE");
@@ -50,7 +52,7 @@ export const runCommand: CommandModule<object, Args> = {
     if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
     let finished = false;
     try {
-      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers });
+      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers, keepWork: args.keepWork });
       display.finish(true, manifest.records);
       finished = true;
       if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits, cache }, null, 2) + "\n");

@@ -1,12 +1,13 @@
 // The assemble phase (one task): every input file's fates merged in row order into the ledger, the
 // kept records packed per split into blocks (shuffled where asked), the analyzers run, stage files
 // copied in, the manifest written, and the build published in one rename.
-import { copyFile } from "node:fs/promises";
+import { copyFile, readFile } from "node:fs/promises";
 import { join } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { createPacker, type Packer, type PackOptions } from "../stages/pack.js";
 import { encoderFor, tokenizeBounds, type TokenizeOptions } from "../stages/tokenize.js";
-import { loadTokenizerFile, TRAINED_FILE } from "../tokenizer/index.js";
+import { tokenizerFromJson, TRAINED_FILE } from "../tokenizer/index.js";
+import { createHash } from "node:crypto";
 import { readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { copiesFor } from "../pipeline/weights.js";
@@ -172,7 +173,11 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
 
   const splitOrder = ["train", "val", "test"];
   const splits = [...writers.keys()].sort((a, b) => splitOrder.indexOf(a) - splitOrder.indexOf(b));
-  const encoder = trainedPath ? loadTokenizerFile(trainedPath, { eosToken: tokOpts.eos_token ?? "<|endoftext|>" }) : encoderFor(tokOpts, p.baseDir);
+  // A tokenizer trained in this build keeps the name training gave it: trained@<digest of its file>.
+  const trainedJson = trainedPath ? await readFile(trainedPath, "utf8") : undefined;
+  const encoder = trainedJson
+    ? tokenizerFromJson(JSON.parse(trainedJson), TRAINED_FILE, `trained@${createHash("sha256").update(trainedJson).digest("hex").slice(0, 16)}`, { eosToken: tokOpts.eos_token ?? "<|endoftext|>" })
+    : encoderFor(tokOpts, p.baseDir);
   const manifest = await writeManifest(staging, {
     pipeline: p,
     inputs,

@@ -143,7 +143,8 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     } else manifest = await assemblePhase(env, { progress: opts.progress });
   } catch (err) {
     await markFailed(work, phase.name, index, (err as Error)?.message ?? String(err)).catch(() => {});
-    log.error({ phase: phase.name, task: index, error: (err as Error)?.message ?? String(err) }, "task failed");
+    // Into the task's log only: the caller reports the error itself.
+    appendFileSync(logPath(work, phase.name, index), JSON.stringify({ time: new Date().toISOString(), level: "error", phase: phase.name, task: index, error: (err as Error)?.message ?? String(err), msg: "task failed" }) + "\n");
     throw err;
   }
   const report: CacheReport = {

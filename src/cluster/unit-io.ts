@@ -13,6 +13,7 @@ import { copiesFor } from "../pipeline/weights.js";
 import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { Phase, PhasePlan } from "./plan.js";
 import { AtomicStream, unitName, type TaskDone } from "./workdir.js";
+import { crashPoint } from "../lib/crash-point.js";
 
 export interface Unit {
   u: number;
@@ -147,6 +148,7 @@ export class UnitOutput {
   }
 
   async add(r: DocRecord): Promise<void> {
+    crashPoint("unit-records");
     this.records++;
     await this.units.write(JSON.stringify(recordEvent(r)) + "\n");
   }

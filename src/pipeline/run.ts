@@ -9,9 +9,12 @@ import type { InputProgress } from "./read-units.js";
 import { planPhases } from "../cluster/plan.js";
 import { runTask } from "../cluster/task.js";
 import { unitsOf } from "../cluster/unit-io.js";
+import { prepareStaging } from "../output/output-dir.js";
 
 export interface RunOptions {
   log: Logger;
+  /** Keep the phases' work directory (.<out>.run) after the build, to look at what each phase wrote. */
+  keepWork?: boolean;
   /** Reuse cached per-file results (default true); false recomputes and refreshes them. */
   cache?: boolean;
   /** Threads for the per-record stages and the tokenizer (default: the machine's cores). */
@@ -49,6 +52,8 @@ export { copiesFor } from "./weights.js";
 export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<RunResult> {
   const plan = planPhases(p, 1);
   plan.workDir = join(dirname(p.outDir), `.${basename(p.outDir)}.run`);
+  // The output's checks first (a path under a file, a directory that is no build): clear one-line errors.
+  await prepareStaging(p.outDir);
   await rm(plan.workDir, { recursive: true, force: true });
   const cache = new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
@@ -63,7 +68,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
       manifest = r.manifest ?? manifest;
     }
   }
-  await rm(plan.workDir, { recursive: true, force: true });
+  if (!opts.keepWork) await rm(plan.workDir, { recursive: true, force: true });
   await cache.prune();
   opts.log.info({ cache: cache.report }, "cache");
   return { outDir: p.outDir, manifest: manifest!, cache: cache.report };
