@@ -79,7 +79,10 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const threads = Math.max(1, opts.workers ?? availableParallelism());
   const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads };
   await markStarted(work, phase.name, index);
-  await clearTemporaries(phaseDir(work, phase.name));
+  await clearTemporaries(
+    phaseDir(work, phase.name),
+    phase.tasks === 1 ? undefined : shareOf(index, phase.tasks, phase.perFile ? units.length : plan.tasks),
+  );
   const counts: Record<string, number> = {};
   const count = (name: string, n = 1) => (counts[name] = (counts[name] ?? 0) + n);
   const unitFacts: TaskDone["units"] = {};

@@ -121,13 +121,20 @@ export async function markFailed(work: string, phase: string, i: number, error: 
   await writeAtomic(marker(work, phase, i, "failed"), JSON.stringify({ error, host: hostname(), pid: process.pid, at: new Date().toISOString() }) + "\n");
 }
 
-/** Removes what an earlier, interrupted run of this task left: its temporaries. */
-export async function clearTemporaries(dir: string): Promise<void> {
+/**
+ * Removes what an earlier, interrupted run of this task left: its temporaries. Tasks of one phase
+ * run at the same time, so only files of the task's own share (input files or partitions, the
+ * number their names start with) are touched; `mine` undefined: the phase has one task.
+ */
+export async function clearTemporaries(dir: string, mine?: { from: number; to: number }): Promise<void> {
   const walk = async (d: string): Promise<void> => {
     for (const e of await readdir(d, { withFileTypes: true }).catch(() => [])) {
       const p = join(d, e.name);
       if (e.isDirectory()) await walk(p);
-      else if (/\.tmp-[0-9a-f]{8}$/.test(e.name)) await rm(p, { force: true });
+      else if (/\.tmp-[0-9a-f]{8}$/.test(e.name)) {
+        const n = Number(/^(\d+)\./.exec(e.name)?.[1] ?? NaN);
+        if (mine === undefined || (n >= mine.from && n < mine.to)) await rm(p, { force: true });
+      }
     }
   };
   await walk(dir);
