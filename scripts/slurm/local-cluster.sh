@@ -30,12 +30,17 @@ die() {
   exit 1
 }
 
-# pid from a pid file, printed only if that process is alive.
+# pid from a pid file, printed only if that process is alive and is ours: its command line names
+# DIR (every daemon here is started with a path in DIR), so a stale pid file whose number was
+# reused by an unrelated process does not get that process killed.
 live_pid() {
   local f=$1 pid
   [ -s "$f" ] || return 1
   pid=$(tr -dc '0-9' <"$f")
   [ -n "$pid" ] && kill -0 "$pid" 2>/dev/null || return 1
+  if [ -r "/proc/$pid/cmdline" ]; then
+    [[ "$(tr '\0' ' ' <"/proc/$pid/cmdline")" == *"$dir/"* ]] || return 1
+  fi
   echo "$pid"
 }
 
@@ -133,12 +138,17 @@ do_start() {
   # RealMemory a little under MemTotal: a node reporting less memory than configured is drained.
   mem_mb=$(awk '/^MemTotal:/ { printf "%d", $2 / 1024 * 0.9 }' /proc/meminfo)
   [ "${mem_mb:-0}" -ge 1 ] || mem_mb=1
-  # Two free consecutive ports from 16817 up (the defaults are 6817/6818: a system-wide Slurm
-  # keeps its own).
-  port=16817
-  while ! { port_free "$port" && port_free $((port + 1)); }; do
+  # Two free consecutive ports in 16817-17816 (the defaults are 6817/6818: a system-wide Slurm
+  # keeps its own). The search starts at a place drawn from DIR's name, so that clusters started
+  # at the same moment, which both see the same ports free, seldom pick the same pair.
+  local first tries
+  first=$((16817 + 2 * ($(printf '%s' "$dir" | cksum | cut -d' ' -f1) % 500)))
+  port=$first
+  for ((tries = 0; ; tries++)); do
+    port_free "$port" && port_free $((port + 1)) && break
+    [ "$tries" -lt 500 ] || die "no two free ports between 16817 and 17816"
     port=$((port + 2))
-    [ "$port" -lt 17817 ] || die "no two free ports between 16817 and 17817"
+    [ "$port" -lt 17817 ] || port=16817
   done
   conf=$dir/slurm.conf
   socket=$dir/munge.socket
