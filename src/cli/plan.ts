@@ -4,7 +4,7 @@ import { stringify } from "yaml";
 import { loadPipeline, displayPath } from "../pipeline/load.js";
 import { listFiles } from "../sources/source.js";
 import { STAGES } from "../stages/index.js";
-import { dirname, join, resolve } from "node:path";
+import { dirname, join, resolve, sep } from "node:path";
 import { fileURLToPath } from "node:url";
 import { planPhases } from "../cluster/plan.js";
 import { slurmFiles } from "../cluster/emit-slurm.js";
@@ -28,6 +28,14 @@ interface Args {
   wait?: string;
 }
 
+/** The deepest directory holding all of `dirs` (absolute): the default mount of the shared volume. */
+export function commonDir(dirs: string[]): string {
+  const parts = dirs.map((d) => resolve(d).split(sep));
+  let n = 0;
+  while (parts.every((p) => n < p.length && p[n] === parts[0][n])) n++;
+  return parts[0].slice(0, n).join(sep) || sep;
+}
+
 /** How the nodes start siftpack: this installation's node and bin script (a shared install, or the same path in the image). */
 const selfCommand = () => [process.execPath, fileURLToPath(new URL("../../bin/siftpack.js", import.meta.url))];
 
@@ -44,7 +52,7 @@ async function taskPlanOutput(args: Args): Promise<void> {
             command: args.image ? ["siftpack"] : selfCommand(),
             image: args.image ?? "node:20",
             claim: args.claim ?? "siftpack-work",
-            mountPath: args.mount ?? dirname(plan.pipeline),
+            mountPath: args.mount ?? commonDir([dirname(plan.pipeline), plan.workDir, plan.outDir]),
             parallelism: args.parallelism ?? 8,
             cpu: String(args.cpus ?? 2),
             waitTimeout: args.wait ?? "24h",
@@ -78,7 +86,7 @@ export const planCommand: CommandModule<object, Args> = {
       .option("mem", { type: "string", describe: "with --emit slurm: memory per node (sbatch --mem)" })
       .option("image", { type: "string", describe: "with --emit kubernetes: container image with siftpack installed (default node:20 running this installation's path)" })
       .option("claim", { type: "string", describe: "with --emit kubernetes: PersistentVolumeClaim of the shared volume (default siftpack-work)" })
-      .option("mount", { type: "string", describe: "with --emit kubernetes: where the volume is mounted (default: the pipeline file's directory)" })
+      .option("mount", { type: "string", describe: "with --emit kubernetes: where the volume is mounted (default: the deepest directory holding the pipeline file, the work directory and the output)" })
       .option("parallelism", { type: "number", describe: "with --emit kubernetes: pods of a phase at once (default 8)" })
       .option("wait", { type: "string", describe: "with --emit kubernetes: how long submit.sh waits for a phase (default 24h)" }),
   handler: async (args) => {
