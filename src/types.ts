@@ -36,6 +36,8 @@ export interface StageContext {
   addOutputFile(relPath: string): void;
   /** Adds to a named counter reported in the manifest's `stage_counts` (e.g. "redact:email"). */
   count(name: string, n?: number): void;
+  /** A per-file instance of a stage with `gather` hands its file's summary here (see StageDefinition.gather). */
+  summarize?(value: unknown): void;
 }
 
 export interface Logger {

@@ -19,7 +19,8 @@ import { writeBuildInfo } from "../output/build-info.js";
 import { ANALYZERS, type Analyzer } from "../analysis/analyzer.js";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
-import { dropsFile, idFixer, recordsBefore, unitsFile, type TaskEnv } from "./unit-io.js";
+import { dropsFile, idFixer, recordsBefore, summaryFile, unitsFile, type TaskEnv } from "./unit-io.js";
+import { STAGES } from "../stages/index.js";
 import type { TaskDone } from "./workdir.js";
 
 export interface AssembleOptions {
@@ -63,6 +64,20 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
   const stageCounts: Record<string, number> = {};
   const count = (name: string, n = 1) => (stageCounts[name] = (stageCounts[name] ?? 0) + n);
   for (const d of allDone) for (const [k, n] of Object.entries(d.counts)) count(k, n);
+  // Stages that ran per file hand their whole-stream checks to `gather`, with every file's summary in input order.
+  for (const ph of plan.phases) {
+    if (ph.does.kind !== "pass") continue;
+    for (const [k, e] of ph.does.entries.entries()) {
+      const def = STAGES[e.name];
+      if (!def.gather) continue;
+      const summaries: unknown[] = [];
+      for (const unit of env.units) {
+        const list = JSON.parse(await readFile(summaryFile(work, ph.name, unit.u), "utf8")) as unknown[];
+        if (list[k] !== undefined && list[k] !== null) summaries.push(list[k]);
+      }
+      await def.gather(summaries, e.options, { seed: config.seed, baseDir: p.baseDir, log: env.log, count, workDir: staging, addOutputFile: (f) => stageFiles.push(f) });
+    }
+  }
 
   const weights = new Map(config.sources.map((s) => [s.name, s.weight]));
   const copiesOf = (r: DocRecord) => {
@@ -104,7 +119,7 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
         for await (const e of readEvents(dropsFile(work, ph.name, unit.u))) if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
       }
       const late: Fate[] = [];
-      const records = recordsBefore(env, k, unit.u, (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }));
+      const records = recordsBefore(env, k, unit.u, (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }), count);
       const unitIds: string[] = [];
       const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
         if ("rec" in f || f.drop) {

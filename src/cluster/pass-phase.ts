@@ -9,6 +9,7 @@ import { recordFailure } from "../pipeline/read-units.js";
 import { encoderFor, type TokenizeOptions } from "../stages/tokenize.js";
 import type { BuildCache } from "../cache/build-cache.js";
 import type { Stage } from "../stages/stage.js";
+import { STAGES } from "../stages/index.js";
 import type { StageEntry } from "../pipeline/config.js";
 import type { DocRecord, StageContext } from "../types.js";
 
@@ -48,37 +49,47 @@ function fromItem(item: Extract<BatchItem, { k: "drop" }>): DocRecord {
   return { id: b.id, source: b.source, text: b.text, meta: b.meta, origin: { file: b.file, line: b.line }, seq: b.seq };
 }
 
-/** The stream stages of a per-file phase: consecutive per-record stages share one pool; tokenize has its own (and its cache). */
+/** The stream stages of a per-file phase: consecutive per-record stages share one pool; tokenize has its own (and its cache); stages with `gather` run here, one instance per file, and hand over a summary. */
 export class PassStages {
   private readonly pools: RecordPool[] = [];
-  private readonly parts: ((s: AsyncIterable<DocRecord>, ctx: StageContext) => AsyncIterable<DocRecord>)[] = [];
+  private readonly parts: ((s: AsyncIterable<DocRecord>, ctx: StageContext, summaries: unknown[]) => AsyncIterable<DocRecord>)[] = [];
 
-  constructor(entries: StageEntry[], baseDir: string, seed: number, threads: number, cache: BuildCache) {
+  private constructor() {}
+
+  static async create(entries: StageEntry[], baseDir: string, seed: number, threads: number, cache: BuildCache): Promise<PassStages> {
+    const self = new PassStages();
     let run: StageEntry[] = [];
     const flush = () => {
       if (run.length === 0) return;
       const pool = recordPool({ stages: run, baseDir, seed }, threads);
-      this.pools.push(pool);
-      this.parts.push(poolStage(pool));
+      self.pools.push(pool);
+      const stage = poolStage(pool);
+      self.parts.push((s, ctx) => stage(s, ctx));
       run = [];
     };
-    for (const e of entries) {
-      if (e.name !== "tokenize") {
-        run.push(e);
-        continue;
-      }
-      flush();
-      const o = e.options as TokenizeOptions;
-      const pool = recordPool({ stages: [e], baseDir, seed }, threads);
-      this.pools.push(pool);
-      this.parts.push(parallelTokenize(o, pool, cache, encoderFor(o, baseDir).name));
+    for (const [k, e] of entries.entries()) {
+      const def = STAGES[e.name];
+      if (def.gather) {
+        flush();
+        const stage = await def.create(e.options, { baseDir, workers: threads, perFile: true });
+        self.parts.push((s, ctx, summaries) => stage(s, { ...ctx, summarize: (v) => (summaries[k] = v) }));
+      } else if (e.name === "tokenize") {
+        flush();
+        const o = e.options as TokenizeOptions;
+        const pool = recordPool({ stages: [e], baseDir, seed }, threads);
+        self.pools.push(pool);
+        const stage = parallelTokenize(o, pool, cache, encoderFor(o, baseDir).name);
+        self.parts.push((s, ctx) => stage(s, ctx));
+      } else run.push(e);
     }
     flush();
+    return self;
   }
 
-  run(input: AsyncIterable<DocRecord>, ctx: StageContext): AsyncIterable<DocRecord> {
+  /** The file's records through every stage; `summaries[k]` gets the summary of entry k, if it has one. */
+  run(input: AsyncIterable<DocRecord>, ctx: StageContext, summaries: unknown[]): AsyncIterable<DocRecord> {
     let s = input;
-    for (const part of this.parts) s = part(s, ctx);
+    for (const part of this.parts) s = part(s, ctx, summaries);
     return s;
   }
 

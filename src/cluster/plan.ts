@@ -3,15 +3,17 @@
 // tasks there are, and any number of tasks gives the same bytes.
 //
 //   read                 per input file: read, map, the leading per-record stages
-//   pass-N               per input file: per-record stages (split excepted), tokenize
+//   pass-N               per input file: per-record stages, split and decontaminate (their whole-stream
+//                        checks gathered in assemble), tokenize
 //   exact-dups           one task: the first of every group of equal texts (hashes from the pass before)
 //   buckets              per bucket partition: candidate pairs from shared band buckets, confirmed by signature
 //   clusters             one task: near-duplicate clusters, the kept record of each
-//   whole-N              one task: stages that need the whole stream in one instance (split, strip_repeated_lines,
-//                        decontaminate, tokenizer training, stages added by a library user)
+//   lines                per partition of line keys: lines repeated in min_docs records (strip_repeated_lines)
+//   whole-N              one task: stages that need the whole stream in one instance (tokenizer training,
+//                        MinHash with exact confirmation, stages added by a library user)
 //   assemble             one task: ledger, packing, shuffle, shards, manifest
 //
-// A decision of exact-dups or clusters is applied by whichever phase reads the records next.
+// A decision of exact-dups, clusters or lines is applied by whichever phase reads the records next.
 import { dirname, basename, join, isAbsolute, resolve } from "node:path";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { StageEntry } from "../pipeline/config.js";
@@ -27,11 +29,12 @@ export type PhaseKind =
   | { kind: "exact"; entry: StageEntry }
   | { kind: "buckets"; entry: StageEntry }
   | { kind: "clusters"; entry: StageEntry; ordinal: number }
+  | { kind: "lines"; entry: StageEntry }
   | { kind: "whole"; entries: StageEntry[] }
   | { kind: "assemble" };
 
 /** What a per-file phase gathers for the global step after it. */
-export type Collect = { kind: "exact" } | { kind: "minhash"; entry: StageEntry };
+export type Collect = { kind: "exact" } | { kind: "minhash"; entry: StageEntry } | { kind: "lines"; entry: StageEntry };
 
 export interface Phase extends PhaseInfo {
   /** Phases before it whose outputs it reads: a task refuses to start until they are complete. */
@@ -56,9 +59,14 @@ export function workDirOf(p: LoadedPipeline): string {
 const isExact = (e: StageEntry) => e.name === "dedup" && e.options.method !== "minhash";
 /** MinHash with signature confirmation splits into buckets + clusters; `confirm: exact` re-reads texts, so it runs whole. */
 const isMinhash = (e: StageEntry) => e.name === "dedup" && e.options.method === "minhash" && (e.options as MinhashOptions).confirm !== "exact";
-/** Stages a per-file task can run: built-in, one record at a time, and not a tokenizer in training. */
-const perFile = (e: StageEntry) =>
+const isLines = (e: StageEntry) => e.name === "strip_repeated_lines";
+/** Steps with a gathering pass, a global phase (or two) and a decision the next reader applies. */
+const isGlobal = (e: StageEntry) => isExact(e) || isMinhash(e) || isLines(e);
+/** Stages the read phase runs: built-in, one record at a time (ids are not final there), not a tokenizer in training. */
+const perRecord = (e: StageEntry) =>
   BUILTIN_STAGES.has(e.name) && STAGES[e.name].perRecord === true && !(e.name === "tokenize" && (e.options as TokenizeOptions).train !== undefined);
+/** Stages a per-file pass runs: those, and built-in stages whose whole-stream work is a per-file summary plus `gather`. */
+const perFile = (e: StageEntry) => perRecord(e) || (BUILTIN_STAGES.has(e.name) && STAGES[e.name].gather !== undefined);
 
 export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): PhasePlan {
   const entries = p.config.stages.filter((e) => e.name !== "pack");
@@ -72,7 +80,7 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
   // rows across a source's files), so `split` and library stages never run there.
   let i = 0;
   const readEntries: StageEntry[] = [];
-  while (i < entries.length && perFile(entries[i])) readEntries.push(entries[i++]);
+  while (i < entries.length && perRecord(entries[i])) readEntries.push(entries[i++]);
   // The per-file phase last added: the next global step gathers its material there.
   let current: { entries: StageEntry[]; collect?: Collect } = { kind: "read", entries: readEntries } as PhaseKind & { entries: StageEntry[] };
   add("read", tasks, true, current as PhaseKind, "read input files, map fields, run the leading per-record stages");
@@ -80,9 +88,10 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
   let passes = 1;
   while (i < entries.length) {
     const e = entries[i];
-    if (isExact(e) || isMinhash(e)) {
-      current.collect = isExact(e) ? { kind: "exact" } : { kind: "minhash", entry: e };
+    if (isGlobal(e)) {
+      current.collect = isExact(e) ? { kind: "exact" } : isLines(e) ? { kind: "lines", entry: e } : { kind: "minhash", entry: e };
       if (isExact(e)) add("exact-dups", 1, false, { kind: "exact", entry: e }, "choose the first of every group of equal texts");
+      else if (isLines(e)) add("lines", tasks, false, { kind: "lines", entry: e }, "per partition of line keys: lines found in at least min_docs records");
       else {
         minhashes++;
         add("buckets", tasks, false, { kind: "buckets", entry: e }, "candidate pairs from shared band buckets, confirmed by signature");
@@ -90,7 +99,7 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
       }
       i++;
       // The next global step collects in a pass of its own, which also applies this decision.
-      if (i < entries.length && (isExact(entries[i]) || isMinhash(entries[i]))) {
+      if (i < entries.length && isGlobal(entries[i])) {
         current = { kind: "pass", entries: [] } as PhaseKind & { entries: StageEntry[] };
         add(`pass-${++passes}`, tasks, true, current as PhaseKind, "apply the decision before, gather for the next");
       }
@@ -104,11 +113,11 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
       continue;
     }
     const run: StageEntry[] = [];
-    while (i < entries.length && !perFile(entries[i]) && !isExact(entries[i]) && !isMinhash(entries[i])) run.push(entries[i++]);
+    while (i < entries.length && !perFile(entries[i]) && !isGlobal(entries[i])) run.push(entries[i++]);
     add(`whole-${phases.filter((ph) => ph.does.kind === "whole").length + 1}`, 1, false, { kind: "whole", entries: run }, `one stream: ${run.map((r) => r.name).join(", ")}`);
     // A per-file pass after a whole step may gather for a global step; give it one to attach to.
     current = { kind: "pass", entries: [] } as PhaseKind & { entries: StageEntry[] };
-    if (i < entries.length && (isExact(entries[i]) || isMinhash(entries[i]))) add(`pass-${++passes}`, tasks, true, current as PhaseKind, "gather for the next step");
+    if (i < entries.length && isGlobal(entries[i])) add(`pass-${++passes}`, tasks, true, current as PhaseKind, "gather for the next step");
   }
   add("assemble", 1, false, { kind: "assemble" }, "ledger, packing, shuffle, shards, manifest");
   return { pipeline: resolve(p.file), workDir: workDirOf(p), outDir: p.outDir, phases, tasks };

@@ -17,10 +17,12 @@ import { planPhases, shareOf, type PhasePlan } from "./plan.js";
 import { collectorParams, openCollector, type Collector } from "./collect.js";
 import { readUnit } from "./read-phase.js";
 import { PassStages } from "./pass-phase.js";
-import { bucketsPhase, clustersPhase, exactPhase } from "./dedup-phases.js";
+import { bucketsPhase, clustersPhase, collectingPhase, exactPhase } from "./dedup-phases.js";
+import { linesPhase, openLinesCollector } from "./lines-phase.js";
+import type { StripRepeatedLinesOptions } from "../stages/strip-repeated-lines.js";
 import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
-import { planKey, recordsBefore, unitsOf, UnitOutput, type TaskEnv } from "./unit-io.js";
+import { planKey, recordsBefore, summaryFile, unitsOf, UnitOutput, type TaskEnv } from "./unit-io.js";
 import { clearTemporaries, logPath, markDone, markFailed, markStarted, phaseDir, requireDone, writeAtomic, type TaskDone } from "./workdir.js";
 
 export interface TaskOptions {
@@ -99,10 +101,14 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const params = does.collect ? collectorParams(does.collect, p.config.seed) : undefined;
       const signer = params ? new SignerPool(params, threads > 1 ? threads : 0) : undefined;
       const pool = does.kind === "read" ? recordPool({ stages: does.entries, baseDir: p.baseDir, seed: p.config.seed }, threads) : undefined;
-      const stages = does.kind === "pass" ? new PassStages(does.entries, p.baseDir, p.config.seed, threads, cache) : undefined;
+      const stages = does.kind === "pass" ? await PassStages.create(does.entries, p.baseDir, p.config.seed, threads, cache) : undefined;
       try {
         for (let u = from; u < to; u++) {
-          const collector: Collector | undefined = does.collect ? await openCollector(does.collect, work, phase.name, u, p.config.seed, plan.tasks, signer) : undefined;
+          const collector: Collector | undefined = !does.collect
+            ? undefined
+            : does.collect.kind === "lines"
+              ? await openLinesCollector(does.collect.entry.options as StripRepeatedLinesOptions, work, phase.name, u, plan.tasks, count)
+              : await openCollector(does.collect, work, phase.name, u, p.config.seed, plan.tasks, signer);
           try {
             if (does.kind === "read") {
               const r = await readUnit(env, u, does.entries, pool!, cache, collector);
@@ -111,11 +117,13 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
             } else {
               const out = await UnitOutput.open(work, phase.name, u);
               const ctx: StageContext = { seed: p.config.seed, log, workDir: phaseDir(work, phase.name), addOutputFile: () => {}, count, drop: (r, reason, detail) => out.drop(r, reason, detail) };
+              const summaries: unknown[] = [];
               try {
-                for await (const r of stages!.run(recordsBefore(env, k, u, ctx.drop), ctx)) {
+                for await (const r of stages!.run(recordsBefore(env, k, u, ctx.drop, count), ctx, summaries)) {
                   await collector?.add(r);
                   await out.add(r);
                 }
+                if (summaries.length > 0) await writeAtomic(summaryFile(work, phase.name, u), JSON.stringify(summaries) + "\n");
                 await out.commit();
               } catch (err) {
                 await out.abort();
@@ -139,6 +147,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const r = await bucketsPhase(env);
       log.info({ phase: phase.name, task: index, comparisons: r.compared, pairs: r.edges }, "bucket partitions joined");
     } else if (does.kind === "clusters") files = [await clustersPhase(env, count)];
+    else if (does.kind === "lines") await linesPhase(env, collectingPhase(env, k), count);
     else if (does.kind === "whole") {
       const r = await wholePhase(env, does.entries, count);
       files = r.files;

@@ -14,6 +14,7 @@ import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { Phase, PhasePlan } from "./plan.js";
 import { AtomicStream, unitName, type TaskDone } from "./workdir.js";
 import { crashPoint } from "../lib/crash-point.js";
+import { repeatedLines } from "./lines-phase.js";
 
 export interface Unit {
   u: number;
@@ -84,6 +85,8 @@ export interface Decision {
 
 export const unitsFile = (work: string, phase: string, u: number) => join(work, phase, "units", `${unitName(u)}.jsonl`);
 export const dropsFile = (work: string, phase: string, u: number) => join(work, phase, "drops", `${unitName(u)}.jsonl`);
+/** Per file: the summaries of a pass's stages with `gather`, a JSON array by entry. */
+export const summaryFile = (work: string, phase: string, u: number) => join(work, phase, "summaries", `${unitName(u)}.json`);
 export const decisionsFile = (work: string, phase: string, u: number) => join(work, phase, "decisions", `${unitName(u)}.jsonl`);
 
 const materializes = (ph: Phase) => ph.does.kind === "read" || ph.does.kind === "pass" || ph.does.kind === "whole";
@@ -92,7 +95,7 @@ const materializes = (ph: Phase) => ph.does.kind === "read" || ph.does.kind === 
 export function sourceOf(plan: PhasePlan, k: number): { from: Phase; decisions: Phase[] } {
   let m = k - 1;
   while (!materializes(plan.phases[m])) m--;
-  return { from: plan.phases[m], decisions: plan.phases.slice(m + 1, k).filter((ph) => ph.does.kind === "exact" || ph.does.kind === "clusters") };
+  return { from: plan.phases[m], decisions: plan.phases.slice(m + 1, k).filter((ph) => ph.does.kind === "exact" || ph.does.kind === "clusters" || ph.does.kind === "lines") };
 }
 
 async function loadDecisions(path: string): Promise<Map<number, Decision>> {
@@ -106,10 +109,12 @@ async function loadDecisions(path: string): Promise<Map<number, Decision>> {
  * unit files applied (drops reported through `drop`). Straight after the read phase, mixture
  * weights of 0 (records subsampled away) are applied here too, since they need the final id.
  */
-export async function* recordsBefore(env: TaskEnv, k: number, u: number, drop: StageContext["drop"]): AsyncGenerator<DocRecord> {
+export async function* recordsBefore(env: TaskEnv, k: number, u: number, drop: StageContext["drop"], count: StageContext["count"]): AsyncGenerator<DocRecord> {
   const { from, decisions } = sourceOf(env.plan, k);
   const fix = idFixer(env);
-  const maps = await Promise.all(decisions.map((d) => loadDecisions(decisionsFile(env.plan.workDir, d.name, u))));
+  const lines = decisions.find((d) => d.does.kind === "lines");
+  const strip = lines ? await repeatedLines(env, lines) : undefined;
+  const maps = await Promise.all(decisions.filter((d) => d !== lines).map((d) => loadDecisions(decisionsFile(env.plan.workDir, d.name, u))));
   const unit = env.units[u];
   const weight = unit.source.weight;
   for await (const e of readEvents(unitsFile(env.plan.workDir, from.name, u))) {
@@ -131,7 +136,10 @@ export async function* recordsBefore(env: TaskEnv, k: number, u: number, drop: S
       }
       if (d.cluster !== undefined) r.cluster = d.cluster;
     }
-    if (!dropped) yield r;
+    if (dropped) continue;
+    // Steps follow each other with a pass between them, so a lines decision is the only one here when present.
+    if (strip && !strip(r, drop, count)) continue;
+    yield r;
   }
 }
 

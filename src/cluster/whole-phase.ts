@@ -39,7 +39,7 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
     },
   };
   async function* all(): AsyncGenerator<DocRecord> {
-    for (const unit of env.units) yield* recordsBefore(env, env.phase.index, unit.u, ctx.drop);
+    for (const unit of env.units) yield* recordsBefore(env, env.phase.index, unit.u, ctx.drop, count);
   }
   let stream: AsyncIterable<DocRecord> = all();
   for (const e of entries) {

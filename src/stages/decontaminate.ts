@@ -6,6 +6,7 @@ import { field, list, num, obj, str, type Infer } from "../pipeline/schema.js";
 import { loadProtected, type ProtectedFile } from "../overlap/protected-set.js";
 import { NgramHasher } from "../overlap/ngram-hash.js";
 import { WORD_FORMS, wordsOf, type WordForm } from "../overlap/words.js";
+import type { StageContext } from "../types.js";
 
 export const decontaminateOptions = obj({
   /** Protected files or globs, relative to the pipeline file; plain text, passages separated by blank lines. */
@@ -44,11 +45,39 @@ function reportName(workDir: string): string {
   }
 }
 
+/** What one instance saw: records checked, matches in input order, and the protected set it loaded. */
+interface DecontaminateSummary {
+  checked: number;
+  matches: Record<string, unknown>[];
+  files: readonly ProtectedFile[];
+  distinct_ngrams: number;
+}
+
+/** decontaminate.json: what the build was decontaminated against, and what matched (the ledger's kept lines do not carry marks). */
+function writeReport(o: DecontaminateOptions, summaries: DecontaminateSummary[], ctx: Pick<StageContext, "workDir" | "addOutputFile">): void {
+  const name = reportName(ctx.workDir);
+  const { files, distinct_ngrams } = summaries[0];
+  const report = {
+    ngram: o.ngram,
+    form: o.form,
+    action: o.action,
+    files,
+    distinct_ngrams,
+    // A training n-gram is taken for a protected one by hash collision with about this probability per lookup.
+    collision_rate_per_lookup: distinct_ngrams / 2 ** 64,
+    checked: summaries.reduce((a, s) => a + s.checked, 0),
+    matches: summaries.flatMap((s) => s.matches),
+  };
+  writeFileSync(join(ctx.workDir, name), JSON.stringify(report, null, 2) + "\n");
+  ctx.addOutputFile(name);
+}
+
 export default defineStage({
   name: "decontaminate",
   summary: "drops (or marks) training records sharing a word n-gram with protected evaluation texts; place it after split",
   // Text is never changed (records are dropped or get meta.contaminated), so cached token ids stay valid.
-  // Not per-record: it needs each record's split and writes one report over the whole stream.
+  // Not per-record: it needs each record's split and writes one report over the whole stream
+  // (per file in a build's task plan, the report gathered from every file's matches).
   options: decontaminateOptions,
   async create(o, env) {
     const set = await loadProtected(o.against, env.baseDir, o.ngram, o.form, "decontaminate");
@@ -78,22 +107,19 @@ export default defineStage({
         yield r;
       }
       ctx.count("decontaminate:checked", checked);
-      // What this build was decontaminated against, and what matched (the ledger's kept lines do not carry marks).
-      const name = reportName(ctx.workDir);
-      const report = {
-        ngram: o.ngram,
-        form: o.form,
-        action: o.action,
-        files: set.files,
-        distinct_ngrams: set.grams.size,
-        // A training n-gram is taken for a protected one by hash collision with about this probability per lookup.
-        collision_rate_per_lookup: set.grams.size / 2 ** 64,
-        checked,
-        matches,
-      };
-      writeFileSync(join(ctx.workDir, name), JSON.stringify(report, null, 2) + "\n");
-      ctx.addOutputFile(name);
+      const summary: DecontaminateSummary = { checked, matches, files: set.files, distinct_ngrams: set.grams.size };
+      if (env?.perFile && ctx.summarize) ctx.summarize(summary);
+      else writeReport(o, [summary], ctx);
     };
+  },
+  async gather(summaries, o, ctx) {
+    const list = summaries as DecontaminateSummary[];
+    // Without any input file no instance ran: the report still names what the build was checked against.
+    if (list.length === 0) {
+      const set = await loadProtected(o.against, ctx.baseDir, o.ngram, o.form, "decontaminate");
+      list.push({ checked: 0, matches: [], files: set.files, distinct_ngrams: set.grams.size });
+    }
+    writeReport(o, list, ctx);
   },
   explain(o) {
     return { words: `${o.form === "none" ? "" : o.form + ", "}format characters removed, lower-cased, runs of letters, marks and digits`, checks: "records whose split is train (or unset)" };

@@ -16,5 +16,5 @@ export const STAGES: Record<string, StageDefinition> = { normalize, filter, reda
 /** The stages siftpack ships (a worker thread can rebuild these; stages registered at run time it cannot). */
 export const BUILTIN_STAGES: ReadonlySet<string> = new Set(Object.keys(STAGES));
 
-export type { Stage, StageDefinition, StageEnv } from "./stage.js";
+export type { Stage, StageDefinition, StageEnv, GatherContext } from "./stage.js";
 export { defineStage } from "./stage.js";

@@ -2,7 +2,7 @@
 import { defineStage } from "./stage.js";
 import { field, num, obj, refine, str, type Infer } from "../pipeline/schema.js";
 import { loadHasher, unitHash } from "../lib/hash.js";
-import type { DocRecord } from "../types.js";
+import type { DocRecord, StageContext } from "../types.js";
 
 const fraction = num({ min: 0, max: 1 });
 export const splitOptions = refine(
@@ -22,6 +22,45 @@ export const splitOptions = refine(
 export type SplitOptions = Infer<typeof splitOptions>;
 
 const HELD_OUT = ["val", "test"] as const;
+
+/** What one instance saw: documents per split, each marked cluster's first split, clusters it saw in two splits. */
+interface SplitSummary {
+  documents: { train: number; val: number; test: number };
+  clusters: [string, string][];
+  straddling: string[];
+}
+
+/** The checks that need every record: clusters across splits, held-out splits below min_docs (warnings and counts). */
+function checkSplits(summaries: SplitSummary[], o: SplitOptions, ctx: Pick<StageContext, "count" | "log">): void {
+  const documents = { train: 0, val: 0, test: 0 };
+  const clusterSplit = new Map<string, string>();
+  const straddling = new Set<string>();
+  for (const s of summaries) {
+    for (const k of ["train", "val", "test"] as const) documents[k] += s.documents[k];
+    for (const c of s.straddling) straddling.add(c);
+    for (const [c, split] of s.clusters) {
+      const first = clusterSplit.get(c);
+      if (first === undefined) clusterSplit.set(c, split);
+      else if (first !== split) straddling.add(c);
+    }
+  }
+  if (straddling.size > 0) {
+    ctx.count("split:clusters-across-splits", straddling.size);
+    ctx.log.warn(
+      { stage: "split", clusters: straddling.size, by: o.by, example: [...straddling][0] },
+      "near-duplicate clusters span groups in different splits; their members were split by group (see siftpack overlap)",
+    );
+  }
+  // Checked once the stream has ended: only then is a split's size known.
+  let small = 0;
+  for (const name of HELD_OUT) {
+    if (o.holdout[name] > 0 && documents[name] < o.min_docs) {
+      small++;
+      ctx.log.warn({ stage: "split", split: name, documents: documents[name], min_docs: o.min_docs, fraction: o.holdout[name], by: o.by }, `held-out split "${name}" has fewer documents than min_docs`);
+    }
+  }
+  if (small > 0) ctx.count("split:below-min-docs", small);
+}
 
 /** The key a record is split by: its group field's value, or (without one) its source and id. */
 export function splitKey(r: DocRecord, by: string | undefined): string {
@@ -60,11 +99,10 @@ export default defineStage({
   name: "split",
   summary: "assigns train / val / test deterministically",
   // Not `perRecord`: although each record's split depends on that record alone, the stage counts
-  // documents per split, checks min_docs and tracks clusters across all records, which needs the
-  // whole stream in one instance (a per-file cached instance would check min_docs per file, or not
-  // at all on a replay). Recomputing a split is one hash per record, so nothing is lost by not caching it.
+  // documents per split, checks min_docs and tracks clusters across all records. Per file (in a
+  // build's task plan) each instance summarizes its file and `gather` checks the whole.
   options: splitOptions,
-  async create(o) {
+  async create(o, env) {
     await loadHasher();
     return async function* split(input, ctx) {
       const documents = { train: 0, val: 0, test: 0 };
@@ -83,23 +121,13 @@ export default defineStage({
         yield r;
       }
       for (const [name, n] of Object.entries(documents)) ctx.count(`split:${name}`, n);
-      if (straddling.size > 0) {
-        ctx.count("split:clusters-across-splits", straddling.size);
-        ctx.log.warn(
-          { stage: "split", clusters: straddling.size, by: o.by, example: [...straddling][0] },
-          "near-duplicate clusters span groups in different splits; their members were split by group (see siftpack overlap)",
-        );
-      }
-      // Checked once the stream has ended: only then is a split's size known.
-      let small = 0;
-      for (const name of HELD_OUT) {
-        if (o.holdout[name] > 0 && documents[name] < o.min_docs) {
-          small++;
-          ctx.log.warn({ stage: "split", split: name, documents: documents[name], min_docs: o.min_docs, fraction: o.holdout[name], by: o.by }, `held-out split "${name}" has fewer documents than min_docs`);
-        }
-      }
-      if (small > 0) ctx.count("split:below-min-docs", small);
+      const summary: SplitSummary = { documents, clusters: [...clusterSplit], straddling: [...straddling] };
+      if (env?.perFile && ctx.summarize) ctx.summarize(summary);
+      else checkSplits([summary], o, ctx);
     };
+  },
+  gather(summaries, o, ctx) {
+    checkSplits(summaries as SplitSummary[], o, ctx);
   },
   explain(o) {
     return { key: o.by === undefined ? "near-duplicate cluster when marked, else source and id" : `meta field "${o.by}"; without it, near-duplicate cluster when marked, else source and id` };

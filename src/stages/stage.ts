@@ -1,6 +1,6 @@
 // The contract every stage file fulfils: an option schema and a function from records to records.
 import type { Schema } from "../pipeline/schema.js";
-import type { DocRecord, StageContext } from "../types.js";
+import type { DocRecord, Logger, StageContext } from "../types.js";
 
 /** A running stage: async iterable of records in, async iterable of records out. */
 export type Stage = (input: AsyncIterable<DocRecord>, ctx: StageContext) => AsyncIterable<DocRecord>;
@@ -11,6 +11,23 @@ export interface StageEnv {
   baseDir: string;
   /** Threads the run may use (`run --workers`); stages with threads of their own follow it by default. */
   workers?: number;
+  /**
+   * Set when the instance sees one input file's records (a per-file phase of the task plan): a
+   * stage with `gather` then reports its whole-stream findings through `ctx.summarize` instead of
+   * acting on them, and `gather` acts once on every file's summary.
+   */
+  perFile?: boolean;
+}
+
+/** What `gather` may do: count, log, and write build files. */
+export interface GatherContext {
+  seed: number;
+  baseDir: string;
+  log: Logger;
+  count(name: string, n?: number): void;
+  /** The build directory in progress. */
+  workDir: string;
+  addOutputFile(relPath: string): void;
 }
 
 export interface StageDefinition<O = any> {
@@ -26,6 +43,13 @@ export interface StageDefinition<O = any> {
    * across records: a run of such stages at the head of the pipeline is cached per input file.
    */
   perRecord?: boolean;
+  /**
+   * Present when the stage's whole-stream work splits into one instance per input file (created
+   * with `env.perFile`, each ending with `ctx.summarize(value)`, a JSON value) and this step, which
+   * gets the summaries in input order once every file is done. Such a stage runs per file in a
+   * build's task plan instead of in one whole-stream task.
+   */
+  gather?(summaries: unknown[], options: O, ctx: GatherContext): void | Promise<void>;
   /** Extra lines for `siftpack plan` (derived settings). */
   explain?(options: O): Record<string, unknown>;
 }

@@ -38,7 +38,7 @@ export type StripRepeatedLinesOptions = Infer<typeof stripRepeatedLinesOptions>;
  * The key of a line: trimmed (indentation and trailing spaces do not make boilerplate
  * different), hashed; undefined for lines too short to consider (blank lines always).
  */
-function lineKey(line: string, minChars: number): number | undefined {
+export function lineKey(line: string, minChars: number): number | undefined {
   const t = line.trim();
   if (t === "" || (minChars > 0 && codePoints(t) < minChars)) return undefined;
   return Number(xxh64String(t) >> 11n);
@@ -86,6 +86,11 @@ export class LineCounts {
   get size(): number {
     return this.counts.size;
   }
+
+  /** Every counted line key with its record count. */
+  entries(): IterableIterator<[number, number]> {
+    return this.counts.entries();
+  }
 }
 
 /**
@@ -93,7 +98,7 @@ export class LineCounts {
  * Blank lines on both sides of a removed line merge into one, and blank lines at either end of
  * a changed text are trimmed, so removal leaves no holes.
  */
-export function stripLines(text: string, counts: LineCounts, minDocs: number): { text: string; removed: number } {
+export function stripLines(text: string, counts: Pick<LineCounts, "count">, minDocs: number): { text: string; removed: number } {
   const lines = text.split("\n");
   const out: string[] = [];
   let removed = 0;

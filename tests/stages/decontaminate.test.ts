@@ -122,4 +122,34 @@ describe("decontaminate", () => {
     const filled = decontaminateOptions.check({ against: "p.txt" }, [], []);
     expect(filled).toEqual({ against: ["p.txt"], ngram: 13, action: "drop", form: "NFKC" });
   });
+
+  it("per file with gather (a build's task plan) writes the report of one stream", async () => {
+    const planted = wordsB.slice(2, 16).join(" ");
+    const rs = [rec("a", longDoc(planted), "train"), rec("b", longDoc(""), "train"), rec("c", longDoc(planted), "val"), rec("d", longDoc(wordsA.slice(0, 14).join(" ")))];
+    for (const action of ["drop", "mark"]) {
+      const whole = await runStage(rs.map((r) => ({ ...r, meta: {} })), { against: "protected/*.txt", action });
+      const o = decontaminateOptions.check({ against: "protected/*.txt", action }, [], []);
+      const workDir = mkdtempSync(join(tmpdir(), "siftpack-decon-files-"));
+      const summaries: unknown[] = [];
+      const files: string[] = [];
+      const counts: Record<string, number> = {};
+      const count = (name: string, n = 1) => (counts[name] = (counts[name] ?? 0) + n);
+      const log = { info() {}, debug() {}, error() {}, warn() {} };
+      const stage = await decontaminate.create(o, { baseDir: base, perFile: true });
+      // Three files: [a], [b, c], [d].
+      for (const file of [rs.slice(0, 1), rs.slice(1, 3), rs.slice(3)]) {
+        async function* from() {
+          yield* file.map((r) => ({ ...r, meta: {} }));
+        }
+        const ctx: StageContext = { seed: 0, drop() {}, log, workDir, addOutputFile: (f) => files.push(f), count, summarize: (v) => summaries.push(v) };
+        for await (const _ of stage(from(), ctx));
+      }
+      expect(files).toEqual([]);
+      await decontaminate.gather!(summaries, o, { seed: 0, baseDir: base, log, count, workDir, addOutputFile: (f) => files.push(f) });
+      expect(files).toEqual(whole.files);
+      expect(counts).toEqual(whole.counts);
+      expect(readFileSync(join(workDir, files[0]), "utf8")).toBe(readFileSync(join(whole.workDir, whole.files[0]), "utf8"));
+      expect(JSON.parse(readFileSync(join(workDir, files[0]), "utf8")).matches.map((m: { id: string }) => m.id)).toEqual(["a", "d"]);
+    }
+  });
 });

@@ -13,6 +13,31 @@ interface Run {
   counts: Record<string, number>;
 }
 
+/**
+ * As a build's task plan runs it: one instance per input file (`cuts` are the files' first records),
+ * each handing a summary to `gather`, which makes the whole-stream checks once.
+ */
+async function runSplitPerFile(records: DocRecord[], options: unknown, cuts: number[], seed = 7): Promise<Run> {
+  const o = splitOptions.check(options, [], []);
+  const warnings: Run["warnings"] = [];
+  const counts: Record<string, number> = {};
+  const summaries: unknown[] = [];
+  const log = { info() {}, debug() {}, error() {}, warn: (obj: any, msg?: string) => warnings.push({ obj, msg }) };
+  const count = (name: string, n = 1) => (counts[name] = (counts[name] ?? 0) + n);
+  const stage = await split.create(o, { baseDir: ".", perFile: true });
+  const bounds = [0, ...cuts.filter((c) => c > 0 && c < records.length).sort((a, b) => a - b), records.length];
+  const out: DocRecord[] = [];
+  for (let f = 0; f + 1 < bounds.length; f++) {
+    async function* file() {
+      yield* records.slice(bounds[f], bounds[f + 1]);
+    }
+    const ctx: StageContext = { seed, drop: () => {}, log, workDir: "/nonexistent", addOutputFile() {}, count, summarize: (v) => summaries.push(v) };
+    for await (const r of stage(file(), ctx)) out.push(r);
+  }
+  await split.gather!(summaries, o, { seed, baseDir: ".", log, count, workDir: "/nonexistent", addOutputFile() {} });
+  return { out, warnings, counts };
+}
+
 async function runSplit(records: DocRecord[], options: unknown, seed = 7): Promise<Run> {
   const issues: any[] = [];
   const o = splitOptions.check(options, [], issues);
@@ -138,5 +163,19 @@ describe("split stage", () => {
     splitOptions.check({ min_docs: -1 }, ["split"], issues);
     splitOptions.check({ min_docs: 1.5 }, ["split"], issues);
     expect(issues.map((i) => i.message)).toEqual(["expected an integer ≥ 0, got number -1", "expected an integer ≥ 0, got number 1.5"]);
+  });
+
+  it("per file with gather (a build's task plan) gives the splits, counts and warnings of one stream", async () => {
+    await fc.assert(
+      fc.asyncProperty(records(1), fc.constantFrom(undefined, "depot"), fc.array(fc.nat({ max: 150 }), { maxLength: 6 }), fc.integer({ min: 0, max: 1000 }), async (rs, by, cuts, seed) => {
+        const options = { by, holdout: { val: 0.3, test: 0.2 }, min_docs: 20 };
+        const whole = await runSplit(rs, options, seed);
+        const perFile = await runSplitPerFile(rs, options, cuts, seed);
+        expect(perFile.out.map((r) => r.split)).toEqual(whole.out.map((r) => r.split));
+        expect(perFile.counts).toEqual(whole.counts);
+        expect(perFile.warnings.map((w) => [w.msg, w.obj.split ?? w.obj.clusters])).toEqual(whole.warnings.map((w) => [w.msg, w.obj.split ?? w.obj.clusters]));
+      }),
+      { numRuns: 60 },
+    );
   });
 });
