@@ -2,7 +2,7 @@
 // thread, our tokenizer against the reference in the same run, the whole pipeline on 1 and all
 // workers, and peak memory at two corpus sizes. Prints a table and writes build/bench/results.json.
 //
-//   node bench/run.js [--small-mb 50] [--large-mb 200] [--skip-minhash]
+//   node bench/run.js [--small-mb 50] [--large-mb 200] [--skip-minhash] [--skip-cluster]
 import { readFileSync, writeFileSync, mkdirSync, rmSync } from "node:fs";
 import { join } from "node:path";
 import { spawnSync } from "node:child_process";
@@ -133,6 +133,13 @@ if (!flag("skip-minhash")) {
   const r = spawnSync(process.execPath, [join(root, "bench/minhash.bench.js"), "--mb", String(Math.min(100, largeMb)), "--skip-memory"], { encoding: "utf8", stdio: ["ignore", "pipe", "inherit"] });
   process.stdout.write(r.stdout);
   results.minhash = r.stdout.trim().split("\n");
+}
+
+if (!flag("skip-cluster")) {
+  console.log("\nCluster tasks against run (bench/cluster.js):");
+  const r = spawnSync(process.execPath, [join(root, "bench/cluster.js"), "--mb", String(smallMb)], { encoding: "utf8", stdio: ["ignore", "pipe", "inherit"] });
+  process.stdout.write(r.stdout);
+  results.cluster = r.stdout.trim().split("\n");
 }
 
 for (const d of ["full", "full-small", "tok"]) rmSync(join(work, `out-${d}`), { recursive: true, force: true });

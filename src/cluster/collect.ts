@@ -1,5 +1,6 @@
 // What a per-file phase gathers for the global step after it, one set of files per input file:
-//   exact:   <phase>/collect/<u>.jsonl            {i, h (XXH64 of the text), id} per record
+//   exact:   <phase>/collect/exact/<p>/<u>.jsonl  {i, h (XXH64 of the text), id} per record,
+//                                                 partition p = low 32 bits of h mod partitions
 //   minhash: <phase>/collect/sig/<u>.bin          the records' signatures, k uint32 each, in order
 //            <phase>/collect/docs/<u>.jsonl       {i, id, len, short} per record, same order
 //            <phase>/collect/buckets/<p>/<u>.bin  band bucket entries (key, band, unit, j) as 4 × uint32,
@@ -21,7 +22,9 @@ export interface Collector {
   abort(): Promise<void>;
 }
 
-export const exactFile = (work: string, phase: string, u: number) => join(work, phase, "collect", `${unitName(u)}.jsonl`);
+export const exactFile = (work: string, phase: string, part: number, u: number) => join(work, phase, "collect", "exact", String(part).padStart(5, "0"), `${unitName(u)}.jsonl`);
+/** The exact-dups partition of a text hash (hex): its low 32 bits modulo the partitions. */
+export const exactPartition = (hex: string, partitions: number) => parseInt(hex.slice(-8), 16) % partitions;
 export const sigFile = (work: string, phase: string, u: number) => join(work, phase, "collect", "sig", `${unitName(u)}.bin`);
 export const docsFile = (work: string, phase: string, u: number) => join(work, phase, "collect", "docs", `${unitName(u)}.jsonl`);
 export const bucketFile = (work: string, phase: string, part: number, u: number) => join(work, phase, "collect", "buckets", String(part).padStart(5, "0"), `${unitName(u)}.bin`);
@@ -30,11 +33,19 @@ export const bucketFile = (work: string, phase: string, part: number, u: number)
 export async function openCollector(c: Collect, work: string, phase: string, u: number, seed: number, partitions: number, pool?: SignerPool): Promise<Collector> {
   if (c.kind === "exact") {
     await loadHasher();
-    const out = await AtomicStream.open(exactFile(work, phase, u));
+    const outs: AtomicStream[] = [];
+    for (let p = 0; p < partitions; p++) outs.push(await AtomicStream.open(exactFile(work, phase, p, u)));
     return {
-      add: (r) => out.write(JSON.stringify({ i: r.seq, h: hex64(xxh64String(r.text)), id: r.id }) + "\n"),
-      finish: () => out.commit(),
-      abort: () => out.abort(),
+      add: (r) => {
+        const h = hex64(xxh64String(r.text));
+        return outs[exactPartition(h, partitions)].write(JSON.stringify({ i: r.seq, h, id: r.id }) + "\n");
+      },
+      finish: async () => {
+        for (const out of outs) await out.commit();
+      },
+      abort: async () => {
+        for (const out of outs) await out.abort();
+      },
     };
   }
   return MinhashCollector.open(c.entry.options as MinhashOptions, work, phase, u, seed, partitions, pool!);

@@ -26,38 +26,43 @@ export function collectingPhase(env: TaskEnv, k: number): Phase {
   return env.plan.phases[m];
 }
 
-async function writeDecisions(env: TaskEnv, byUnit: Map<number, Decision[]>): Promise<void> {
+async function writeDecisions(env: TaskEnv, byUnit: Map<number, Decision[]>, part?: number): Promise<void> {
   for (const unit of env.units) {
     const list = byUnit.get(unit.u) ?? [];
-    await writeAtomic(decisionsFile(env.plan.workDir, env.phase.name, unit.u), list.map((d) => JSON.stringify(d) + "\n").join(""));
+    await writeAtomic(decisionsFile(env.plan.workDir, env.phase.name, unit.u, part), list.map((d) => JSON.stringify(d) + "\n").join(""));
   }
 }
 
-/** exact-dups: the first record of every text in input order stays; the others are dropped naming it. */
-export async function exactPhase(env: TaskEnv, count: (name: string, n?: number) => void): Promise<void> {
+/**
+ * exact-dups, per partition of text hashes: the first record of every text in input order stays;
+ * the others are dropped naming it. Equal texts share a hash and so a partition.
+ */
+export async function exactPhase(env: TaskEnv): Promise<void> {
   const from = collectingPhase(env, env.phase.index);
   const fix = idFixer(env);
-  const first = new Map<bigint, string>();
-  const byUnit = new Map<number, Decision[]>();
-  let dropped = 0;
-  for (const unit of env.units) {
-    const list: Decision[] = [];
-    for await (const e of readEvents(exactFile(env.plan.workDir, from.name, unit.u)) as AsyncIterable<unknown> as AsyncIterable<{ i: number; h: string; id: string }>) {
-      const r = { id: e.id, seq: e.i };
-      fix(unit.u, r);
-      const h = BigInt(`0x${e.h}`);
-      const of = first.get(h);
-      if (of === undefined) first.set(h, r.id);
-      else {
-        list.push({ i: e.i, drop: { reason: "duplicate", detail: { of, xxh64: e.h } } });
-        dropped++;
+  const { from: p0, to: p1 } = shareOf(env.index, env.phase.tasks, env.plan.tasks);
+  for (let part = p0; part < p1; part++) {
+    const first = new Map<bigint, string>();
+    const byUnit = new Map<number, Decision[]>();
+    let dropped = 0;
+    for (const unit of env.units) {
+      const list: Decision[] = [];
+      for await (const e of readEvents(exactFile(env.plan.workDir, from.name, part, unit.u)) as AsyncIterable<unknown> as AsyncIterable<{ i: number; h: string; id: string }>) {
+        const r = { id: e.id, seq: e.i };
+        fix(unit.u, r);
+        const h = BigInt(`0x${e.h}`);
+        const of = first.get(h);
+        if (of === undefined) first.set(h, r.id);
+        else {
+          list.push({ i: e.i, drop: { reason: "duplicate", detail: { of, xxh64: e.h } } });
+          dropped++;
+        }
       }
+      if (list.length) byUnit.set(unit.u, list);
     }
-    if (list.length) byUnit.set(unit.u, list);
+    await writeDecisions(env, byUnit, part);
+    env.log.info({ phase: env.phase.name, partition: part, texts: first.size, duplicates: dropped }, "exact duplicates chosen");
   }
-  await writeDecisions(env, byUnit);
-  env.log.info({ phase: env.phase.name, texts: first.size, duplicates: dropped }, "exact duplicates chosen");
-  void count;
 }
 
 /** Documents per file reaching the MinHash step, and where each file's numbering starts. */

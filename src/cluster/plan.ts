@@ -5,7 +5,7 @@
 //   read                 per input file: read, map, the leading per-record stages
 //   pass-N               per input file: per-record stages, split and decontaminate (their whole-stream
 //                        checks gathered in assemble), tokenize
-//   exact-dups           one task: the first of every group of equal texts (hashes from the pass before)
+//   exact-dups           per partition of text hashes: the first of every group of equal texts (hashes from the pass before)
 //   buckets              per bucket partition: candidate pairs from shared band buckets, confirmed by signature
 //   clusters             one task: near-duplicate clusters, the kept record of each
 //   lines                per partition of line keys: lines repeated in min_docs records (strip_repeated_lines)
@@ -90,7 +90,7 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
     const e = entries[i];
     if (isGlobal(e)) {
       current.collect = isExact(e) ? { kind: "exact" } : isLines(e) ? { kind: "lines", entry: e } : { kind: "minhash", entry: e };
-      if (isExact(e)) add("exact-dups", 1, false, { kind: "exact", entry: e }, "choose the first of every group of equal texts");
+      if (isExact(e)) add("exact-dups", tasks, false, { kind: "exact", entry: e }, "per partition of text hashes: the first of every group of equal texts stays");
       else if (isLines(e)) add("lines", tasks, false, { kind: "lines", entry: e }, "per partition of line keys: lines found in at least min_docs records");
       else {
         minhashes++;

@@ -142,7 +142,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
         await stages?.close();
         await signer?.close();
       }
-    } else if (does.kind === "exact") await exactPhase(env, count);
+    } else if (does.kind === "exact") await exactPhase(env);
     else if (does.kind === "buckets") {
       const r = await bucketsPhase(env);
       log.info({ phase: phase.name, task: index, comparisons: r.compared, pairs: r.edges }, "bucket partitions joined");

@@ -87,7 +87,8 @@ export const unitsFile = (work: string, phase: string, u: number) => join(work, 
 export const dropsFile = (work: string, phase: string, u: number) => join(work, phase, "drops", `${unitName(u)}.jsonl`);
 /** Per file: the summaries of a pass's stages with `gather`, a JSON array by entry. */
 export const summaryFile = (work: string, phase: string, u: number) => join(work, phase, "summaries", `${unitName(u)}.json`);
-export const decisionsFile = (work: string, phase: string, u: number) => join(work, phase, "decisions", `${unitName(u)}.jsonl`);
+export const decisionsFile = (work: string, phase: string, u: number, part?: number) =>
+  part === undefined ? join(work, phase, "decisions", `${unitName(u)}.jsonl`) : join(work, phase, "decisions", String(part).padStart(5, "0"), `${unitName(u)}.jsonl`);
 
 const materializes = (ph: Phase) => ph.does.kind === "read" || ph.does.kind === "pass" || ph.does.kind === "whole";
 
@@ -98,9 +99,11 @@ export function sourceOf(plan: PhasePlan, k: number): { from: Phase; decisions: 
   return { from: plan.phases[m], decisions: plan.phases.slice(m + 1, k).filter((ph) => ph.does.kind === "exact" || ph.does.kind === "clusters" || ph.does.kind === "lines") };
 }
 
-async function loadDecisions(path: string): Promise<Map<number, Decision>> {
+/** A phase's decisions about unit u: exact-dups writes one file per partition, clusters one per file. */
+async function loadDecisions(env: TaskEnv, phase: Phase, u: number): Promise<Map<number, Decision>> {
   const m = new Map<number, Decision>();
-  for await (const d of readEvents(path) as AsyncIterable<unknown> as AsyncIterable<Decision>) m.set(d.i, d);
+  const paths = phase.does.kind === "exact" ? Array.from({ length: env.plan.tasks }, (_, p) => decisionsFile(env.plan.workDir, phase.name, u, p)) : [decisionsFile(env.plan.workDir, phase.name, u)];
+  for (const path of paths) for await (const d of readEvents(path) as AsyncIterable<unknown> as AsyncIterable<Decision>) m.set(d.i, d);
   return m;
 }
 
@@ -114,7 +117,7 @@ export async function* recordsBefore(env: TaskEnv, k: number, u: number, drop: S
   const fix = idFixer(env);
   const lines = decisions.find((d) => d.does.kind === "lines");
   const strip = lines ? await repeatedLines(env, lines) : undefined;
-  const maps = await Promise.all(decisions.filter((d) => d !== lines).map((d) => loadDecisions(decisionsFile(env.plan.workDir, d.name, u))));
+  const maps = await Promise.all(decisions.filter((d) => d !== lines).map((d) => loadDecisions(env, d, u)));
   const unit = env.units[u];
   const weight = unit.source.weight;
   for await (const e of readEvents(unitsFile(env.plan.workDir, from.name, u))) {
