@@ -28,7 +28,7 @@ export const statusCommand: CommandModule<object, Args> = {
     }
     const rows = states.map((s) => {
       const n = (st: string) => s.tasks.filter((t) => t.state === st).length;
-      return [s.phase, String(s.tasks.length), String(n("done")), String(n("failed")), String(n("running")), String(n("pending"))];
+      return [s.phase, String(s.tasks.length), String(n("done")), String(n("failed") + n("stopped")), String(n("running")), String(n("pending"))];
     });
     const head = ["phase", "tasks", "done", "failed", "running", "pending"];
     const widths = head.map((h, c) => Math.max(h.length, ...rows.map((r) => r[c].length)));
@@ -37,7 +37,8 @@ export const statusCommand: CommandModule<object, Args> = {
     for (const s of states)
       for (const t of s.tasks) {
         if (t.state === "failed") out += `failed: ${s.phase} task ${t.index}${t.host ? ` on ${t.host}` : ""}: ${t.error}\n  last log line: ${t.lastLog ?? "(none)"}\n`;
-        if (t.state === "running") out += `running or killed: ${s.phase} task ${t.index}${t.host ? ` on ${t.host}` : ""}; last log line: ${t.lastLog ?? "(none)"}\n`;
+        if (t.state === "stopped") out += `stopped without finishing (killed?): ${s.phase} task ${t.index} on ${t.host}; run it again\n  last log line: ${t.lastLog ?? "(none)"}\n`;
+        if (t.state === "running") out += `running (or stopped on its node): ${s.phase} task ${t.index}${t.host ? ` on ${t.host}` : ""}; last log line: ${t.lastLog ?? "(none)"}\n`;
       }
     process.stdout.write(out);
   },

@@ -140,7 +140,20 @@ export async function clearTemporaries(dir: string, mine?: { from: number; to: n
   await walk(dir);
 }
 
-export type TaskState = { index: number; state: "done" | "failed" | "running" | "pending"; error?: string; lastLog?: string; host?: string; seconds?: number };
+/**
+ * `running`: started and not finished, on another host or alive here; `stopped`: started on this
+ * host by a process that is gone without finishing (killed, or its node rebooted).
+ */
+export type TaskState = { index: number; state: "done" | "failed" | "running" | "stopped" | "pending"; error?: string; lastLog?: string; host?: string; seconds?: number };
+
+function alive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (err) {
+    return (err as NodeJS.ErrnoException).code === "EPERM";
+  }
+}
 
 /** Where each task of each phase stands, read from the markers and logs alone. */
 export async function phaseStates(work: string, phases: { name: string; tasks: number }[]): Promise<{ phase: string; tasks: TaskState[] }[]> {
@@ -159,7 +172,8 @@ export async function phaseStates(work: string, phases: { name: string; tasks: n
       const started = await json(marker(work, ph.name, i, "started"));
       if (done) tasks.push({ index: i, state: "done", seconds: done.seconds });
       else if (failed) tasks.push({ index: i, state: "failed", error: failed.error, host: failed.host, lastLog: await lastLine(logPath(work, ph.name, i)) });
-      else if (started) tasks.push({ index: i, state: "running", host: started.host, lastLog: await lastLine(logPath(work, ph.name, i)) });
+      else if (started)
+        tasks.push({ index: i, state: started.host === hostname() && !alive(started.pid) ? "stopped" : "running", host: started.host, lastLog: await lastLine(logPath(work, ph.name, i)) });
       else tasks.push({ index: i, state: "pending" });
     }
     out.push({ phase: ph.name, tasks });

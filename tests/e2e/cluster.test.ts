@@ -107,7 +107,9 @@ describe("cluster build as separate task processes", () => {
     expect(blocked.code).toBe(1);
     expect(blocked.stderr).toContain(`task 0 of phase "${victim}"`);
     const status = siftpack(["status", plan.workDir], { cwd: dir });
-    expect(status.stdout).toMatch(new RegExp(`running or killed: ${victim} task 0 .*last log line: \\{.*"phase":"${victim}"`));
+    // Killed on this host: its process is gone, so status knows it stopped without finishing.
+    expect(status.stdout).toMatch(new RegExp(`stopped without finishing \\(killed\\?\\): ${victim} task 0 on .*; run it again\n  last log line: \\{.*"phase":"${victim}"`));
+    expect(status.stdout).toMatch(new RegExp(`^${victim} +3 +2 +1 +0 +0$`, "m"));
     // The scheduler's retry: the same task again, then the rest.
     expect(siftpack(["task", file, "--phase", victim, "--index", "0"], { cwd: dir }).code).toBe(0);
     expect(readdirSync(units).some((n) => n.includes(".tmp-"))).toBe(false);
