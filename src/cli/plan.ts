@@ -7,6 +7,7 @@ import { STAGES } from "../stages/index.js";
 import { dirname, join, resolve, sep } from "node:path";
 import { fileURLToPath } from "node:url";
 import { planPhases } from "../cluster/plan.js";
+import { unitsOf } from "../cluster/unit-io.js";
 import { slurmFiles } from "../cluster/emit-slurm.js";
 import { kubernetesFiles } from "../cluster/emit-kubernetes.js";
 import { writeLaunchFiles } from "../cluster/launch-file.js";
@@ -42,7 +43,7 @@ const selfCommand = () => [process.execPath, fileURLToPath(new URL("../../bin/si
 async function taskPlanOutput(args: Args): Promise<void> {
   const p = await loadPipeline(args.file);
   const plan = planPhases(p);
-  const info = { pipeline: plan.pipeline, workDir: plan.workDir, outDir: plan.outDir, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) };
+  const info = { pipeline: plan.pipeline, workDir: plan.workDir, outDir: plan.outDir, units: (await unitsOf(p)).length, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) };
   if (args.emit) {
     const dir = resolve(args.to ?? join(plan.workDir, "launch", args.emit));
     const files =
@@ -64,7 +65,10 @@ async function taskPlanOutput(args: Args): Promise<void> {
     process.stdout.write(JSON.stringify(info, null, 2) + "\n");
     return;
   }
+  const units = await unitsOf(p);
+  const parts = units.filter((u) => u.range).length;
   let out = `# task plan for ${displayPath(plan.pipeline)}: work directory ${displayPath(plan.workDir)}, output ${displayPath(plan.outDir)}\n`;
+  out += `# ${units.length} unit${units.length === 1 ? "" : "s"} of work: ${units.length - parts} whole input file${units.length - parts === 1 ? "" : "s"}${parts ? `, ${parts} parts of JSONL files over cluster.unit_mb (${p.config.cluster.unit_mb} MB)` : ""}\n`;
   const w = Math.max(...plan.phases.map((ph) => ph.name.length));
   for (const ph of plan.phases) out += `${ph.name.padEnd(w)}  ${String(ph.tasks).padStart(5)} task${ph.tasks === 1 ? " " : "s"}  ${ph.summary}\n`;
   process.stdout.write(out);

@@ -19,7 +19,7 @@ import { writeBuildInfo } from "../output/build-info.js";
 import { ANALYZERS, type Analyzer } from "../analysis/analyzer.js";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
-import { dropsFile, idFixer, recordsBefore, summaryFile, unitsFile, type TaskEnv } from "./unit-io.js";
+import { dropsFile, idFixer, lineOffsets, recordsBefore, summaryFile, unitsFile, type TaskEnv } from "./unit-io.js";
 import { STAGES } from "../stages/index.js";
 import type { TaskDone } from "./workdir.js";
 
@@ -39,7 +39,8 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
   const readDone = env.done.get("read")!;
   const facts = new Map<number, TaskDone["units"][string]>();
   for (const d of readDone) for (const [u, f] of Object.entries(d.units)) facts.set(Number(u), f);
-  const inputs: Manifest["inputs"] = env.units.map((u) => ({ source: u.source.name, path: u.path, size: facts.get(u.u)!.size!, xxh64: facts.get(u.u)!.xxh64! }));
+  // One entry per input file (a file read in parts is hashed whole by its first part).
+  const inputs: Manifest["inputs"] = env.units.filter((u) => !u.range || u.range.start === 0).map((u) => ({ source: u.source.name, path: u.path, size: facts.get(u.u)!.size!, xxh64: facts.get(u.u)!.xxh64! }));
 
   const staging = await prepareStaging(p.outDir);
   const ledger = new Ledger(join(staging, "ledger.jsonl.gz"), join(staging, "quarantine.jsonl"));
@@ -110,9 +111,14 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
   try {
     for (const unit of env.units) {
       const fates: Fate[] = [];
+      const lineOffset = lineOffsets(env)[unit.u];
       for await (const e of readEvents(unitsFile(work, "read", unit.u))) {
-        if (e.k === "bad") fates.push({ i: e.i, bad: e.entry });
-        else if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
+        if (e.k === "bad") fates.push({ i: e.i, bad: { ...e.entry, line: e.entry.line + lineOffset } });
+        else if (e.k === "drop") {
+          const d = dropOf(e);
+          d.r.origin.line += lineOffset;
+          fates.push({ i: e.i, drop: d });
+        }
       }
       for (const ph of plan.phases.slice(1, k)) {
         if (ph.does.kind !== "pass" && ph.does.kind !== "whole") continue;

@@ -53,6 +53,8 @@ function fromItem(item: Extract<BatchItem, { k: "drop" }>): DocRecord {
 export class PassStages {
   private readonly pools: RecordPool[] = [];
   private readonly parts: ((s: AsyncIterable<DocRecord>, ctx: StageContext, summaries: unknown[]) => AsyncIterable<DocRecord>)[] = [];
+  /** The part of a file being run (its byte range), for the token cache's keys. */
+  private part: string | undefined;
 
   private constructor() {}
 
@@ -78,7 +80,7 @@ export class PassStages {
         const o = e.options as TokenizeOptions;
         const pool = recordPool({ stages: [e], baseDir, seed }, threads);
         self.pools.push(pool);
-        const stage = parallelTokenize(o, pool, cache, encoderFor(o, baseDir).name);
+        const stage = parallelTokenize(o, pool, cache, encoderFor(o, baseDir).name, () => self.part);
         self.parts.push((s, ctx) => stage(s, ctx));
       } else run.push(e);
     }
@@ -87,7 +89,8 @@ export class PassStages {
   }
 
   /** The file's records through every stage; `summaries[k]` gets the summary of entry k, if it has one. */
-  run(input: AsyncIterable<DocRecord>, ctx: StageContext, summaries: unknown[]): AsyncIterable<DocRecord> {
+  run(input: AsyncIterable<DocRecord>, ctx: StageContext, summaries: unknown[], part?: { start: number; end: number }): AsyncIterable<DocRecord> {
+    this.part = part ? `${part.start}-${part.end}` : undefined;
     let s = input;
     for (const part of this.parts) s = part(s, ctx, summaries);
     return s;

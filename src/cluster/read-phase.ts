@@ -2,7 +2,7 @@
 // per-record stages (in batches on the worker pool), its fates written in row order to
 // read/units/<u>.jsonl. The same file is the build cache's entry for it, so a rerun with the same
 // file and settings copies it instead of redoing the work.
-import { copyFile, mkdir, rename } from "node:fs/promises";
+import { copyFile, mkdir, open, rename } from "node:fs/promises";
 import { dirname, join } from "node:path";
 import { readSourceFile, RecordMapper } from "../sources/source.js";
 import { BuildCache } from "../cache/build-cache.js";
@@ -13,7 +13,7 @@ import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../p
 import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
 import { recordFailure } from "../pipeline/read-units.js";
 import { encoderFor } from "../stages/tokenize.js";
-import { hashFile } from "../lib/hash.js";
+import { hashFile, hex64, loadHasher } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { DocRecord } from "../types.js";
 import type { StageEntry } from "../pipeline/config.js";
@@ -24,8 +24,11 @@ import { AtomicStream } from "./workdir.js";
 export interface ReadUnitResult {
   rows: number;
   records: number;
-  size: number;
-  xxh64: string;
+  /** The whole file's size and XXH64, from the unit that starts the file (a later part leaves them out). */
+  size?: number;
+  xxh64?: string;
+  /** Physical lines in a part of a file (later parts number their lines after the earlier parts' lines). */
+  lines?: number;
   counts: Record<string, number>;
 }
 
@@ -33,16 +36,22 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
   const { p } = env;
   const unit = env.units[u];
   const spec = unit.source;
-  const { size, xxh64 } = await hashFile(join(p.baseDir, unit.path)).catch((err) => {
+  const abs = join(p.baseDir, unit.path);
+  const fail = (err: unknown): never => {
     throw new SiftpackError("SP_INPUT_MISSING", `source "${spec.name}": cannot read ${unit.path}: ${describeSystemError(err)}`, { cause: err });
-  });
+  };
+  // The whole file is hashed once, by its first unit; a later part is known by its own bytes.
+  const whole = !unit.range || unit.range.start === 0 ? await hashFile(abs).catch(fail) : undefined;
+  const part = unit.range ? await hashRange(abs, unit.range).catch(fail) : undefined;
   const key = BuildCache.key({
+    range: unit.range ?? null,
+    part: part?.xxh64 ?? null,
     unit: "read",
     siftpack: toolVersion(),
     source: spec,
     file: unit.path,
-    size,
-    xxh64,
+    size: unit.size,
+    xxh64: whole?.xxh64 ?? null,
     seed: p.config.seed,
     // A tokenizer file is named by a hash of its content, so editing it invalidates the unit.
     prefix: entries.map((e) => ({ [e.name]: e.options, ...(e.name === "tokenize" ? { encoder: encoderFor(e.options, p.baseDir).name } : {}) })),
@@ -73,7 +82,7 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     await copyFile(out, pending.tmp);
     await pending.commit();
   }
-  return { rows: end.rows, records, size, xxh64, counts: end.counts };
+  return { rows: end.rows, records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts };
 }
 
 async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, path: string, collector?: Collector, progress?: () => void) {
@@ -86,7 +95,7 @@ async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool:
   async function* batches(): AsyncGenerator<BatchItem[]> {
     let batch: BatchItem[] = [];
     let bytes = 0;
-    for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper)) {
+    for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper, unit.range)) {
       const i = mapper.rows - 1;
       if (item.kind === "bad") batch.push({ k: "bad", entry: item.entry, i });
       else {
@@ -128,4 +137,26 @@ async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool:
     await out.abort();
     throw recordFailure(err);
   }
+}
+
+/** XXH64 and physical line count of bytes [start, end) of a file. */
+async function hashRange(path: string, range: { start: number; end: number }): Promise<{ xxh64: string; lines: number }> {
+  const api = await loadHasher();
+  const h = api.create64(0n);
+  const fh = await open(path, "r");
+  let lines = 0;
+  try {
+    const buf = Buffer.allocUnsafe(1 << 20);
+    for (let pos = range.start; pos < range.end; ) {
+      const { bytesRead } = await fh.read(buf, 0, Math.min(buf.length, range.end - pos), pos);
+      if (bytesRead === 0) break;
+      const chunk = buf.subarray(0, bytesRead);
+      h.update(chunk);
+      for (let i = chunk.indexOf(10); i >= 0; i = chunk.indexOf(10, i + 1)) lines++;
+      pos += bytesRead;
+    }
+  } finally {
+    await fh.close();
+  }
+  return { xxh64: hex64(h.digest()), lines };
 }

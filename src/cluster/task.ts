@@ -113,13 +113,13 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
             if (does.kind === "read") {
               const r = await readUnit(env, u, does.entries, pool!, cache, collector);
               for (const [name, n] of Object.entries(r.counts)) count(name, n);
-              unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64 };
+              unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines };
             } else {
               const out = await UnitOutput.open(work, phase.name, u);
               const ctx: StageContext = { seed: p.config.seed, log, workDir: phaseDir(work, phase.name), addOutputFile: () => {}, count, drop: (r, reason, detail) => out.drop(r, reason, detail) };
               const summaries: unknown[] = [];
               try {
-                for await (const r of stages!.run(recordsBefore(env, k, u, ctx.drop, count), ctx, summaries)) {
+                for await (const r of stages!.run(recordsBefore(env, k, u, ctx.drop, count), ctx, summaries, units[u].range)) {
                   await collector?.add(r);
                   await out.add(r);
                 }

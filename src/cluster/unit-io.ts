@@ -1,6 +1,7 @@
 // What every task needs: the input files (units) in build order, the plan's key, ids fixed across
 // files, and reading / writing one unit's records between phases.
-import { stat } from "node:fs/promises";
+import { open, stat } from "node:fs/promises";
+import { compressionOf } from "../sources/open.js";
 import { join } from "node:path";
 import { listFiles } from "../sources/source.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
@@ -20,26 +21,72 @@ export interface Unit {
   u: number;
   source: SourceConfig;
   path: string;
+  /** The whole file's size. */
   size: number;
+  /** Set when the unit is a part of a large uncompressed JSONL file: bytes [start, end), cut after a newline. */
+  range?: { start: number; end: number };
 }
 
-/** Every input file in build order: sources in pipeline order, each source's files sorted by path. */
+/**
+ * Every unit of work in build order: sources in pipeline order, each source's files sorted by path,
+ * and an uncompressed JSONL file larger than `cluster.unit_mb` cut into parts of about that size,
+ * each ending after a newline. The cuts depend on the file and unit_mb only, never on the tasks.
+ */
 export async function unitsOf(p: LoadedPipeline): Promise<Unit[]> {
   const units: Unit[] = [];
+  const unitBytes = Math.max(1, Math.round(p.config.cluster.unit_mb * 1e6));
   for (const source of p.config.sources) {
     for (const path of await listFiles(source, p.baseDir)) {
-      const { size } = await stat(join(p.baseDir, path)).catch((err) => {
+      const abs = join(p.baseDir, path);
+      const { size } = await stat(abs).catch((err) => {
         throw new SiftpackError("SP_INPUT_MISSING", `source "${source.name}": cannot read ${path}: ${describeSystemError(err)}`, { cause: err });
       });
-      units.push({ u: units.length, source, path, size });
+      if (source.format !== "jsonl" || compressionOf(path) !== "none" || size <= unitBytes) {
+        units.push({ u: units.length, source, path, size });
+        continue;
+      }
+      let start = 0;
+      for (const end of await lineCuts(abs, size, unitBytes)) {
+        units.push({ u: units.length, source, path, size, range: { start, end } });
+        start = end;
+      }
     }
   }
   return units;
 }
 
+/** Where the parts of a file end: just after the first newline at or past every multiple of `unitBytes`, and at the end. */
+async function lineCuts(path: string, size: number, unitBytes: number): Promise<number[]> {
+  const cuts: number[] = [];
+  const fh = await open(path, "r");
+  try {
+    const buf = Buffer.allocUnsafe(1 << 16);
+    let at = unitBytes;
+    while (at < size) {
+      let cut = size;
+      for (let pos = at; pos < size; pos += buf.length) {
+        const { bytesRead } = await fh.read(buf, 0, buf.length, pos);
+        const nl = buf.subarray(0, bytesRead).indexOf(10);
+        if (nl >= 0) {
+          cut = pos + nl + 1;
+          break;
+        }
+        if (bytesRead === 0) break;
+      }
+      if (cut >= size) break;
+      cuts.push(cut);
+      at = Math.max(cut, at + unitBytes);
+    }
+  } finally {
+    await fh.close();
+  }
+  cuts.push(size);
+  return cuts;
+}
+
 /** Names one plan: the pipeline, the inputs as listed (path and size), the tool and the task counts. */
 export function planKey(p: LoadedPipeline, units: Unit[], plan: PhasePlan): string {
-  return BuildCache.key({ siftpack: toolVersion(), pipeline: p.hash, units: units.map((u) => [u.source.name, u.path, u.size]), phases: plan.phases.map((ph) => [ph.name, ph.tasks]) });
+  return BuildCache.key({ siftpack: toolVersion(), pipeline: p.hash, units: units.map((u) => [u.source.name, u.path, u.size, u.range?.start ?? null]), phases: plan.phases.map((ph) => [ph.name, ph.tasks]) });
 }
 
 /** Everything a task knows about the build: its plan, the inputs, and the markers of the phases before it. */
@@ -60,7 +107,16 @@ export interface TaskEnv {
  * Default ids count rows across a source's files (`<source>:<n>`): the read phase numbers rows per
  * file, and every later reader adds the rows of the source's earlier files, known once read is done.
  */
+const fixers = new WeakMap<TaskEnv, (u: number, r: { id: string; seq: number }) => void>();
+const offsets = new WeakMap<TaskEnv, Int32Array>();
+
 export function idFixer(env: TaskEnv): (u: number, r: { id: string; seq: number }) => void {
+  let f = fixers.get(env);
+  if (!f) fixers.set(env, (f = makeIdFixer(env)));
+  return f;
+}
+
+function makeIdFixer(env: TaskEnv): (u: number, r: { id: string; seq: number }) => void {
   const rows = new Map<number, number>();
   for (const d of env.done.get("read") ?? []) for (const [u, f] of Object.entries(d.units)) rows.set(Number(u), f.rows ?? 0);
   const offset = new Int32Array(env.units.length);
@@ -74,6 +130,27 @@ export function idFixer(env: TaskEnv): (u: number, r: { id: string; seq: number 
     const unit = env.units[u];
     if (unit.source.id === undefined) r.id = `${unit.source.name}:${offset[u] + r.seq + 1}`;
   };
+}
+
+/**
+ * A part of a file numbers its lines from 1: later readers add the lines of the file's earlier
+ * parts (known from the read phase's markers). Returns the offset per unit.
+ */
+export function lineOffsets(env: TaskEnv): Int32Array {
+  let o = offsets.get(env);
+  if (!o) offsets.set(env, (o = makeLineOffsets(env)));
+  return o;
+}
+
+function makeLineOffsets(env: TaskEnv): Int32Array {
+  const lines = new Map<number, number>();
+  for (const d of env.done.get("read") ?? []) for (const [u, f] of Object.entries(d.units)) if (f.lines !== undefined) lines.set(Number(u), f.lines);
+  const offset = new Int32Array(env.units.length);
+  for (const unit of env.units) {
+    if (!unit.range || unit.range.start === 0 || unit.u === 0) continue;
+    offset[unit.u] = offset[unit.u - 1] + (lines.get(unit.u - 1) ?? 0);
+  }
+  return offset;
 }
 
 /** A decision of exact-dups or clusters about one row: drop it (reason, detail) or tag its cluster. */
@@ -120,10 +197,12 @@ export async function* recordsBefore(env: TaskEnv, k: number, u: number, drop: S
   const maps = await Promise.all(decisions.filter((d) => d !== lines).map((d) => loadDecisions(env, d, u)));
   const unit = env.units[u];
   const weight = unit.source.weight;
+  const lineOffset = from.does.kind === "read" ? lineOffsets(env)[u] : 0;
   for await (const e of readEvents(unitsFile(env.plan.workDir, from.name, u))) {
     if (e.k !== "rec") continue;
     const r = eventRecord(e);
     fix(u, r);
+    r.origin.line += lineOffset;
     if (from.does.kind === "read" && weight !== 1 && copiesFor(weight, `${r.source}\u0000${r.id}`, env.p.config.seed) === 0) {
       drop(r, "subsampled", { weight });
       continue;

@@ -26,7 +26,7 @@ export interface TaskDone {
   /** Stage counters raised by the task (summed into the manifest's stage_counts). */
   counts: Record<string, number>;
   /** Per input file the task handled: rows read (read phase), records written, and (read phase) size and XXH64. */
-  units: Record<string, { rows?: number; records: number; size?: number; xxh64?: string }>;
+  units: Record<string, { rows?: number; records: number; size?: number; xxh64?: string; lines?: number }>;
   /** Build files the task wrote under <phase>/files/, in order (clusters.jsonl, tokenizer.json, …). */
   files: string[];
   cache?: CacheReport;

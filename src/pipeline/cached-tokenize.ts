@@ -25,10 +25,13 @@ interface Pending {
 
 const EMPTY: BatchOut = { items: [], counts: {}, tokens: new Uint32Array(0), ends: new Int32Array(0) };
 
-/** `cache` undefined: no caching; batches still run in parallel. `encoderName` identifies the tokenizer in cache keys. */
-export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined, encoderName: string): Stage {
+/**
+ * `cache` undefined: no caching; batches still run in parallel. `encoderName` identifies the
+ * tokenizer in cache keys; `part` names the part of a file being read when a file is read in parts.
+ */
+export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined, encoderName: string, part: () => string | undefined = () => undefined): Stage {
   // The encoder's name carries a hash of a tokenizer file's content, so editing the file invalidates the entries.
-  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, tokenize: o, encoder: encoderName });
+  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, part: part() ?? null, tokenize: o, encoder: encoderName });
   return async function* tokenize(input, ctx) {
     // Lookup side: the cache entry of the file now being batched.
     let reading: { id: string; reader?: TokenStoreReader } | undefined;

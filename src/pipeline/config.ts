@@ -81,8 +81,10 @@ export const pipelineSchema = obj({
     obj({
       tasks: field(num({ integer: true, min: 1, max: 100000 }), { default: 8 }),
       work_dir: field(str({ nonEmpty: true })),
+      /** Uncompressed JSONL files larger than this (MB) are read as several units, cut at line boundaries. */
+      unit_mb: field(num({ min: 0.01 }), { default: 1024 }),
     }),
-    { default: { tasks: 8, work_dir: undefined } },
+    { default: { tasks: 8, work_dir: undefined, unit_mb: 1024 } },
   ),
 });
 

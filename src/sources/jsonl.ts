@@ -15,11 +15,13 @@ import { isJsonObject, kindOf } from "./values.js";
  */
 export async function* readJsonl(file: string, options: ReaderOptions = {}): AsyncGenerator<Row> {
   const maxBytes = options.maxRecordBytes ?? DEFAULT_MAX_RECORD_BYTES;
-  const input = await openInput(file);
+  const input = await openInput(file, options.range);
   const splitter = new LineSplitter(maxBytes);
   let records = 0;
+  // A byte order mark can only open the file, not a later part of it.
+  const chunks = options.range && options.range.start > 0 ? readChunks(input) : withoutBom(readChunks(input));
   try {
-    for await (const chunk of withoutBom(readChunks(input))) {
+    for await (const chunk of chunks) {
       for (const line of splitter.push(chunk)) {
         const row = parseLine(line, maxBytes);
         if (row !== undefined) {
@@ -42,7 +44,7 @@ export async function* readJsonl(file: string, options: ReaderOptions = {}): Asy
   } finally {
     input.destroy();
   }
-  if (records === 0) yield { line: 0, error: "empty file" };
+  if (records === 0 && !options.range) yield { line: 0, error: "empty file" };
 }
 
 function isBlank(bytes: Buffer): boolean {

@@ -43,7 +43,7 @@ export function compressionOf(file: string): Compression {
  * file is a SiftpackError at once rather than a read error halfway through a source.
  * Destroying the returned stream closes the file descriptor.
  */
-export async function openInput(file: string): Promise<Readable> {
+export async function openInput(file: string, range?: { start: number; end: number }): Promise<Readable> {
   const compression = compressionOf(file);
   let handle;
   try {
@@ -51,7 +51,8 @@ export async function openInput(file: string): Promise<Readable> {
   } catch (err) {
     throw new SiftpackError("SP_INPUT_MISSING", `cannot open "${file}": ${describeSystemError(err)}`, { cause: err });
   }
-  const raw = handle.createReadStream({ highWaterMark: 64 * 1024 });
+  if (range && compression !== "none") throw new Error(`openInput: a byte range of a compressed file (${file})`);
+  const raw = handle.createReadStream({ highWaterMark: 64 * 1024, ...(range ? { start: range.start, end: range.end - 1 } : {}) });
   if (compression === "none") return raw;
   // pipeline() tears down both ends if either fails or the consumer stops early, so the fd never leaks.
   return pipeline(raw, compression === "gzip" ? createGunzip() : createZstdDecoder(), () => {});

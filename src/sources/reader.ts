@@ -11,6 +11,12 @@ export interface ReaderOptions {
    * as .jsonl, an unterminated CSV quote) cannot exhaust memory.
    */
   maxRecordBytes?: number;
+  /**
+   * Only the bytes [start, end) of an uncompressed file (jsonl): a part of a file cut at line
+   * boundaries, read as a unit of its own. Line numbers then count from the part's start, and a part
+   * without records is not reported as an empty file.
+   */
+  range?: { start: number; end: number };
 }
 
 /** 64 MiB: far beyond any real document, well below V8's string length limit. */

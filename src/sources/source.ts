@@ -189,10 +189,10 @@ export async function* readSource(spec: SourceSpec, baseDir: string): AsyncGener
 }
 
 /** The rows of one file of a source; `mapper` carries the record count and ids across files. */
-export async function* readSourceFile(spec: SourceSpec, baseDir: string, file: string, mapper: RecordMapper): AsyncGenerator<SourceItem | SourceBad> {
+export async function* readSourceFile(spec: SourceSpec, baseDir: string, file: string, mapper: RecordMapper, range?: { start: number; end: number }): AsyncGenerator<SourceItem | SourceBad> {
   const read = readerFor(spec.format);
   try {
-    for await (const row of read(path.resolve(baseDir, file))) yield mapper.map(row, file);
+    for await (const row of read(path.resolve(baseDir, file), range ? { range } : {})) yield mapper.map(row, file);
   } catch (err) {
     throw withSource(spec, err);
   }

@@ -81,11 +81,16 @@ export default defineStage({
   options: decontaminateOptions,
   async create(o, env) {
     const set = await loadProtected(o.against, env.baseDir, o.ngram, o.form, "decontaminate");
+    // Said once per instance, not once per input file when it runs per file.
+    let told = false;
     return async function* decontaminate(input, ctx) {
       const hasher = new NgramHasher(o.ngram);
-      for (const f of set.files)
-        if (f.short_passages > 0) ctx.log.warn({ stage: "decontaminate", file: f.path, short_passages: f.short_passages, ngram: o.ngram }, "protected passages shorter than one n-gram cannot be matched");
-      ctx.log.info({ stage: "decontaminate", files: set.files.length, distinct_ngrams: set.grams.size, bytes: set.grams.bytes }, "protected n-grams loaded");
+      if (!told) {
+        told = true;
+        for (const f of set.files)
+          if (f.short_passages > 0) ctx.log.warn({ stage: "decontaminate", file: f.path, short_passages: f.short_passages, ngram: o.ngram }, "protected passages shorter than one n-gram cannot be matched");
+        ctx.log.info({ stage: "decontaminate", files: set.files.length, distinct_ngrams: set.grams.size, bytes: set.grams.bytes }, "protected n-grams loaded");
+      }
       let checked = 0;
       const matches: Record<string, unknown>[] = [];
       for await (const r of input) {

@@ -2,7 +2,8 @@
 // environment variable Slurm job arrays (SLURM_ARRAY_TASK_ID) or Kubernetes indexed Jobs
 // (JOB_COMPLETION_INDEX) set. The assembled build must equal a one-machine `siftpack run` byte for byte.
 import { describe, expect, it, beforeAll } from "vitest";
-import { readFileSync, writeFileSync, existsSync, readdirSync, mkdirSync } from "node:fs";
+import { readFileSync, writeFileSync, existsSync, readdirSync, mkdirSync, rmSync } from "node:fs";
+import { gunzipSync } from "node:zlib";
 import { join } from "node:path";
 import { parse, stringify } from "yaml";
 import { demoCopy, outputFiles, siftpack } from "./cli.js";
@@ -117,5 +118,36 @@ describe("cluster build as separate task processes", () => {
     runAll(file, dir, { ...plan, phases: rest }, { indexVar: "SLURM_ARRAY_TASK_ID" });
     const built = outputFiles(join(dir, "build/kill"));
     for (const f of Object.keys(local)) expect(built[f], f).toBe(local[f]);
+  }, 300_000);
+});
+
+describe("a large JSONL file read in parts", () => {
+  it("parts cut at line boundaries (cluster.unit_mb) give the bytes of reading each file whole", () => {
+    const dir = demoCopy();
+    // The tickets uncompressed (only plain JSONL is cut): about 90 KB a file, in 10 KB parts.
+    for (const name of readdirSync(join(dir, "sample-data/tickets"))) {
+      const gz = join(dir, "sample-data/tickets", name);
+      writeFileSync(gz.replace(/\.gz$/, ""), gunzipSync(readFileSync(gz)));
+      rmSync(gz);
+    }
+    const demo = join(dir, "pipelines/demo.yaml");
+    writeFileSync(demo, readFileSync(demo, "utf8").replace("tickets/*.jsonl.gz", "tickets/*.jsonl"));
+    const whole = siftpack(["run", demo, "--out", join(dir, "build/whole"), "--quiet"], { cwd: dir });
+    expect(whole.code, whole.stderr).toBe(0);
+
+    const base = parse(readFileSync(demo, "utf8"));
+    base.cluster = { tasks: 3, unit_mb: 0.01, work_dir: "../work-parts" };
+    base.output.dir = "../build/parts";
+    mkdirSync(join(dir, "pipelines-parts"));
+    const file = join(dir, "pipelines-parts", "demo.yaml");
+    writeFileSync(file, stringify(base));
+    const plan = planOf(file, dir) as PlanJson & { units: number };
+    // 12 input files, the two ticket files cut into parts: more units than files.
+    expect(plan.units).toBeGreaterThan(20);
+    runAll(file, dir, plan, { indexVar: "SLURM_ARRAY_TASK_ID" });
+    const a = outputFiles(join(dir, "build/whole"));
+    const b = outputFiles(join(dir, "build/parts"));
+    expect(Object.keys(b).sort()).toEqual(Object.keys(a).sort());
+    for (const f of Object.keys(a)) expect(b[f], f).toBe(a[f]);
   }, 300_000);
 });
