@@ -1,7 +1,5 @@
-// What a cached read unit holds: the fates of one input file's rows after the leading per-record
-// stages, in the order they happened, so replaying them gives the same ledger and records.
-import { createWriteStream, type WriteStream } from "node:fs";
-import { once } from "node:events";
+// The unit files of a build's phases (and the read phase's cache entries): one JSON line per row
+// of an input file (or part) — a record, a drop or a bad row — in row order.
 import { open } from "node:fs/promises";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
@@ -52,42 +50,6 @@ export function eventRecord(e: Extract<UnitEvent, { k: "rec" }>): DocRecord {
   if (e.cluster !== undefined) r.cluster = e.cluster;
   if (e.tokens !== undefined) r.tokens = tokensFromText(e.tokens);
   return r;
-}
-
-/**
- * Writes events as plain JSON lines. Not compressed: gzip of every record's text (and token ids)
- * cost a fifth of a whole build's time in profiles, while the cache only has to be cheaper to
- * read back than the work it saves; it takes about as much disk as the inputs' text.
- */
-export class EventWriter {
-  private readonly out: WriteStream;
-  private failed: Error | undefined;
-
-  constructor(path: string) {
-    this.out = createWriteStream(path, { highWaterMark: 1 << 20 });
-    this.out.on("error", (e) => (this.failed ??= e));
-  }
-
-  /** Queues an event; call `drain` now and then (the buffer is not awaited here, so stages can call it synchronously). */
-  add(e: UnitEvent): void {
-    this.out.write(JSON.stringify(e) + "\n");
-  }
-
-  async drain(): Promise<void> {
-    if (this.failed) throw this.failed;
-    if (this.out.writableNeedDrain) await once(this.out, "drain");
-  }
-
-  async close(): Promise<void> {
-    this.out.end();
-    await once(this.out, "close");
-    if (this.failed) throw this.failed;
-  }
-
-  /** Abandons the file (a failed unit); the caller removes it. */
-  destroy(): void {
-    this.out.destroy();
-  }
 }
 
 export async function* readEvents(path: string): AsyncGenerator<UnitEvent> {

@@ -124,6 +124,7 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
         if (ph.does.kind !== "pass" && ph.does.kind !== "whole") continue;
         for await (const e of readEvents(dropsFile(work, ph.name, unit.u))) if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
       }
+      // Drops made while reading (decisions applied now), in row order as the records come.
       const late: Fate[] = [];
       const records = recordsBefore(env, k, unit.u, (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }), count);
       const unitIds: string[] = [];
@@ -158,7 +159,6 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
       fates.sort((a, b) => a.i - b.i);
       let at = 0;
       for await (const r of records) {
-        late.sort((a, b) => a.i - b.i);
         while (at < fates.length && fates[at].i < r.seq) await emit(fates[at++]);
         while (late.length > 0 && late[0].i < r.seq) await emit(late.shift()!);
         await emit({ i: r.seq, rec: r });

@@ -2,7 +2,8 @@
 // band buckets) and clusters (one task). Documents are numbered in input order across files
 // (file by file, records in order), so every decision equals that of one stream through the stage.
 import { closeSync, mkdtempSync, openSync, readSync, rmSync } from "node:fs";
-import { mkdir, readFile } from "node:fs/promises";
+import { mkdir, readFile, rename } from "node:fs/promises";
+import { randomBytes } from "node:crypto";
 import { join } from "node:path";
 import { readEvents } from "../cache/record-events.js";
 import { BandBuckets, MAX_DOCUMENTS } from "../dedup/buckets.js";
@@ -16,7 +17,7 @@ import { resolveBands } from "../dedup/lsh-params.js";
 import { SiftpackError } from "../errors.js";
 import { bucketFile, docsFile, exactFile, sigFile } from "./collect.js";
 import { decisionsFile, idFixer, type Decision, type TaskEnv } from "./unit-io.js";
-import { AtomicStream, writeAtomic } from "./workdir.js";
+import { writeAtomic } from "./workdir.js";
 import { shareOf, type Phase } from "./plan.js";
 
 /** The per-file phase that gathered for global phase `k`: the nearest per-file phase before it. */
@@ -173,7 +174,6 @@ export async function clustersPhase(env: TaskEnv, count: (name: string, n?: numb
   const unitOf = new Int32Array(n);
   const length = new Int32Array(n);
   const short = new Uint8Array(n);
-  const sourceNames = env.p.config.sources.map((s) => s.name);
   const rank = new Int32Array(n);
   const list = o.sources ?? [];
   for (const unit of env.units) {
@@ -212,9 +212,8 @@ export async function clustersPhase(env: TaskEnv, count: (name: string, n?: numb
   const name = does.ordinal === 1 ? "clusters.jsonl" : `clusters-${does.ordinal}.jsonl`;
   const filesDir = join(env.plan.workDir, env.phase.name, "files");
   await mkdir(filesDir, { recursive: true });
-  const tmp = join(filesDir, `.${name}.tmp-${process.pid.toString(16).padStart(8, "0").slice(-8)}`);
+  const tmp = join(filesDir, `.${name}.tmp-${randomBytes(4).toString("hex")}`);
   writeClusters(tmp, uf, kept.keptOf, { clusterId, source: sourceOfDoc, id: (d) => ids[d], similarity: (d) => similarity[d], short: (d) => short[d] === 1 });
-  const { rename } = await import("node:fs/promises");
   await rename(tmp, join(filesDir, name));
   const byUnit = new Map<number, Decision[]>();
   for (let d = 0; d < n; d++) {
@@ -231,7 +230,5 @@ export async function clustersPhase(env: TaskEnv, count: (name: string, n?: numb
   count(o.action === "mark" ? "dedup:near-duplicates-marked" : "dedup:near-duplicates-dropped", kept.duplicates);
   const { bands, rows: r } = resolveBands(o);
   env.log.info({ stage: "dedup", method: "minhash", records: n, bands, rows: r, clusters: kept.clusters, near_duplicates: kept.duplicates, action: o.action }, "near-duplicate clusters found");
-  void sourceNames;
-  void AtomicStream;
   return name;
 }

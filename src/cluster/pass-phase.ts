@@ -2,7 +2,7 @@
 // written applied) go through per-record stages on the worker pool, tokenize with its cache, and
 // the collector of the next global step; records and drops are written per file.
 import { orderedMap } from "../parallel/pool.js";
-import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, recordPool, type RecordPool } from "../parallel/record-pool.js";
+import { BATCHES_AHEAD, batched, recordPool, type RecordPool } from "../parallel/record-pool.js";
 import { toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
 import { parallelTokenize } from "../pipeline/cached-tokenize.js";
 import { recordFailure } from "../pipeline/read-units.js";
@@ -16,20 +16,10 @@ import type { DocRecord, StageContext } from "../types.js";
 /** Per-record stages as one stream stage: batches go to the pool, results come back in order. */
 export function poolStage(pool: RecordPool): Stage {
   return async function* pooled(input, ctx) {
-    async function* batches(): AsyncGenerator<BatchItem[]> {
-      let batch: BatchItem[] = [];
-      let bytes = 0;
-      for await (const r of input) {
-        batch.push({ k: "rec", r: toBatchRecord(r) });
-        bytes += r.text.length;
-        if (batch.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
-          yield batch;
-          batch = [];
-          bytes = 0;
-        }
-      }
-      if (batch.length > 0) yield batch;
+    async function* items(): AsyncGenerator<BatchItem> {
+      for await (const r of input) yield { k: "rec", r: toBatchRecord(r) };
     }
+    const batches = () => batched(items(), (b) => (b.k === "rec" ? b.r.text.length : 0));
     try {
       for await (const { result } of orderedMap(batches(), (b) => pool.submit(b), BATCHES_AHEAD)) {
         for (const [name, n] of Object.entries(result.counts)) ctx.count(name, n);

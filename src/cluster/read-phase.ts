@@ -2,24 +2,23 @@
 // per-record stages (in batches on the worker pool), its fates written in row order to
 // read/units/<u>.jsonl. The same file is the build cache's entry for it, so a rerun with the same
 // file and settings copies it instead of redoing the work.
-import { copyFile, mkdir, open, rename } from "node:fs/promises";
-import { dirname, join } from "node:path";
+import { copyFile, open } from "node:fs/promises";
+import { join } from "node:path";
 import { readSourceFile, RecordMapper } from "../sources/source.js";
 import { BuildCache } from "../cache/build-cache.js";
 import { eventRecord, readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
 import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
-import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
+import { BATCHES_AHEAD, batched, type RecordPool } from "../parallel/record-pool.js";
 import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
 import { recordFailure } from "../pipeline/read-units.js";
 import { encoderFor } from "../stages/tokenize.js";
 import { hashFile, hex64, loadHasher } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import type { DocRecord } from "../types.js";
 import type { StageEntry } from "../pipeline/config.js";
 import type { Collector } from "./collect.js";
 import { unitsFile, type TaskEnv } from "./unit-io.js";
-import { AtomicStream } from "./workdir.js";
+import { AtomicStream, copyAtomic } from "./workdir.js";
 
 export interface ReadUnitResult {
   rows: number;
@@ -69,10 +68,7 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
       } else if (e.k === "end") end = e;
     }
     if (!end) throw new SiftpackError("SP_OUTPUT", `cache entry ${hit} ends without its end marker; remove it and run again`);
-    const tmp = `${out}.tmp-${Math.random().toString(16).slice(2, 10).padEnd(8, "0")}`;
-    await mkdir(dirname(out), { recursive: true });
-    await copyFile(hit, tmp);
-    await rename(tmp, out);
+    await copyAtomic(hit, out);
   } else {
     cache.report.read.computed++;
     const r = await computeUnit(env, u, entries, pool, out, collector, progress);
@@ -92,25 +88,14 @@ async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool:
   const out = await AtomicStream.open(path);
   const counts: Record<string, number> = {};
   let records = 0;
-  async function* batches(): AsyncGenerator<BatchItem[]> {
-    let batch: BatchItem[] = [];
-    let bytes = 0;
+  async function* items(): AsyncGenerator<BatchItem> {
     for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper, unit.range)) {
       const i = mapper.rows - 1;
-      if (item.kind === "bad") batch.push({ k: "bad", entry: item.entry, i });
-      else {
-        const r: DocRecord = { id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i };
-        batch.push({ k: "rec", r: toBatchRecord(r) });
-        bytes += item.text.length;
-      }
-      if (batch.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
-        yield batch;
-        batch = [];
-        bytes = 0;
-      }
+      if (item.kind === "bad") yield { k: "bad", entry: item.entry, i };
+      else yield { k: "rec", r: toBatchRecord({ id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i }) };
     }
-    if (batch.length > 0) yield batch;
   }
+  const batches = () => batched(items(), (b) => (b.k === "rec" ? b.r.text.length : 0));
   try {
     for await (const { result } of orderedMap(batches(), (b) => pool.submit(b), BATCHES_AHEAD)) {
       for (const [name, n] of Object.entries(result.counts)) counts[name] = (counts[name] ?? 0) + n;

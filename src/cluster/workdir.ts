@@ -7,7 +7,7 @@
 //   <work>/<phase>/task-<i>.failed.json   the error, when it failed (not written when killed)
 //   <work>/logs/<phase>-<i>.log           the task's log lines (JSON)
 import { createWriteStream, type WriteStream } from "node:fs";
-import { mkdir, readdir, readFile, rename, rm, writeFile } from "node:fs/promises";
+import { copyFile, mkdir, readdir, readFile, rename, rm, writeFile } from "node:fs/promises";
 import { once } from "node:events";
 import { randomBytes } from "node:crypto";
 import { hostname } from "node:os";
@@ -38,6 +38,8 @@ export const phaseDir = (work: string, phase: string) => join(work, phase);
 const marker = (work: string, phase: string, i: number, what: "done" | "started" | "failed") => join(work, phase, `task-${i}.${what}.json`);
 export const logPath = (work: string, phase: string, i: number) => join(work, "logs", `${phase}-${i}.log`);
 
+// Not output/atomic.ts's fixed `.tmp` name: a scheduler may run the same task twice at once (a
+// retry while the first attempt still runs), and each attempt needs a temporary of its own.
 const tmpName = (path: string) => `${path}.tmp-${randomBytes(4).toString("hex")}`;
 
 /** Writes a whole file under a temporary name and renames it into place. */
@@ -46,6 +48,14 @@ export async function writeAtomic(path: string, data: string | Uint8Array): Prom
   const tmp = tmpName(path);
   await writeFile(tmp, data);
   await rename(tmp, path);
+}
+
+/** Copies a file into place under a temporary name first. */
+export async function copyAtomic(from: string, to: string): Promise<void> {
+  await mkdir(dirname(to), { recursive: true });
+  const tmp = tmpName(to);
+  await copyFile(from, tmp);
+  await rename(tmp, to);
 }
 
 /** A file written as a stream, renamed into place by `commit`; `abort` removes the temporary. */

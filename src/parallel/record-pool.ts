@@ -25,3 +25,19 @@ export function recordPool(init: BatchInit, threads: number): RecordPool {
     local: () => batchHandler(init),
   });
 }
+
+/** Groups a stream into batches of at most BATCH_RECORDS items or about BATCH_BYTES of text (`bytesOf` an item). */
+export async function* batched<T>(items: AsyncIterable<T>, bytesOf: (item: T) => number): AsyncGenerator<T[]> {
+  let batch: T[] = [];
+  let bytes = 0;
+  for await (const item of items) {
+    batch.push(item);
+    bytes += bytesOf(item);
+    if (batch.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
+      yield batch;
+      batch = [];
+      bytes = 0;
+    }
+  }
+  if (batch.length > 0) yield batch;
+}

@@ -42,8 +42,6 @@ export interface RunResult {
 }
 
 /** How many times a record of a source with `weight` enters training: floor(w), plus one more with probability frac(w). */
-export { copiesFor } from "./weights.js";
-
 /**
  * Builds on this machine by running the task plan's phases in order, one task each (the result
  * does not depend on the number of tasks), every task using the worker pool. The work directory
