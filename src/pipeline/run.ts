@@ -60,13 +60,17 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   const progress = (c: { read: number; kept: number; dropped: number; quarantined: number }) =>
     opts.onProgress?.({ read: c.read, kept: c.kept, dropped: c.dropped, quarantined: c.quarantined, bytesDone: bytesTotal, filesDone: units.length, bytesTotal, filesTotal: units.length });
   let manifest: Manifest | undefined;
-  for (const phase of plan.phases) {
-    for (let i = 0; i < phase.tasks; i++) {
-      const r = await runTask(p, phase.name, i, { log: opts.log, workers: opts.workers, plan, buildCache: cache, progress });
-      manifest = r.manifest ?? manifest;
+  try {
+    for (const phase of plan.phases) {
+      for (let i = 0; i < phase.tasks; i++) {
+        const r = await runTask(p, phase.name, i, { log: opts.log, workers: opts.workers, plan, buildCache: cache, progress });
+        manifest = r.manifest ?? manifest;
+      }
     }
+  } finally {
+    // Failed or not, the phases' files go (the error was reported; the cache keeps what was read).
+    if (!opts.keepWork) await rm(plan.workDir, { recursive: true, force: true });
   }
-  if (!opts.keepWork) await rm(plan.workDir, { recursive: true, force: true });
   await cache.prune();
   opts.log.info({ cache: cache.report }, "cache");
   return { outDir: p.outDir, manifest: manifest!, cache: cache.report };
