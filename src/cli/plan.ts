@@ -43,7 +43,8 @@ const selfCommand = () => [process.execPath, fileURLToPath(new URL("../../bin/si
 async function taskPlanOutput(args: Args): Promise<void> {
   const p = await loadPipeline(args.file);
   const plan = planPhases(p);
-  const info = { pipeline: plan.pipeline, workDir: plan.workDir, outDir: plan.outDir, units: (await unitsOf(p)).length, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) };
+  const units = await unitsOf(p);
+  const info = { pipeline: plan.pipeline, workDir: plan.workDir, outDir: plan.outDir, units: units.length, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) };
   if (args.emit) {
     const dir = resolve(args.to ?? join(plan.workDir, "launch", args.emit));
     const files =
@@ -65,7 +66,6 @@ async function taskPlanOutput(args: Args): Promise<void> {
     process.stdout.write(JSON.stringify(info, null, 2) + "\n");
     return;
   }
-  const units = await unitsOf(p);
   const parts = units.filter((u) => u.range).length;
   let out = `# task plan for ${displayPath(plan.pipeline)}: work directory ${displayPath(plan.workDir)}, output ${displayPath(plan.outDir)}\n`;
   out += `# ${units.length} unit${units.length === 1 ? "" : "s"} of work: ${units.length - parts} whole input file${units.length - parts === 1 ? "" : "s"}${parts ? `, ${parts} parts of JSONL files over cluster.unit_mb (${p.config.cluster.unit_mb} MB)` : ""}\n`;

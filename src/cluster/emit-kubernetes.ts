@@ -7,7 +7,7 @@
 import { posix } from "node:path";
 import { stringify } from "yaml";
 import { SiftpackError } from "../errors.js";
-import { checkPlanForLaunch, commentLine, phaseNumber, shellQuote, type LaunchFile } from "./launch-file.js";
+import { checkPlanForLaunch, commentLine, firstPhaseArgument, phaseNumber, shellCommand, shellQuote, type LaunchFile } from "./launch-file.js";
 import type { TaskPlan } from "./plan-types.js";
 
 export interface KubernetesOptions {
@@ -103,7 +103,7 @@ function jobManifest(plan: TaskPlan, o: KubernetesOptions, i: number, jobName: s
 
 function submitScript(plan: TaskPlan, o: KubernetesOptions, jobs: { nn: string; file: string; jobName: string }[]): string {
   const n = jobs.length;
-  const statusHint = `progress: ${[...o.command, "status", plan.workDir].map(shellQuote).join(" ")}   (in a pod that mounts ${o.claim})`;
+  const statusHint = `progress: ${shellCommand([...o.command, "status", plan.workDir])}   (in a pod that mounts ${o.claim})`;
   return [
     "#!/bin/sh",
     `# Runs the ${n} phases of ${commentLine(plan.pipeline)} as Kubernetes Jobs, one after the other: each`,
@@ -112,11 +112,7 @@ function submitScript(plan: TaskPlan, o: KubernetesOptions, jobs: { nn: string; 
     "set -eu",
     'here=$(cd "$(dirname "$0")" && pwd)',
     `timeout=${shellQuote(o.waitTimeout)}`,
-    "first=${1:-1}",
-    'case $first in',
-    `  '' | *[!0-9]*) echo "usage: $0 [FIRST]  (FIRST = 1-${n}, the phase to start at)" >&2; exit 2 ;;`,
-    "esac",
-    `if [ "$first" -lt 1 ] || [ "$first" -gt ${n} ]; then echo "usage: $0 [FIRST]  (FIRST = 1-${n}, the phase to start at)" >&2; exit 2; fi`,
+    ...firstPhaseArgument(n),
     "",
     "# kubectl wait takes one condition, and a failed Job never becomes Complete: one waiter per outcome,",
     "# whichever ends first decides. Returns 0 when job/$1 is Complete, 1 when Failed or out of time.",

@@ -5,7 +5,7 @@
 // check the scripts and the README against each other. Options given to sbatch on the command line
 // override the scripts' (sbatch(1), "INPUT ENVIRONMENT VARIABLES"): `sbatch --array=3 FILE` re-runs one task.
 import { SiftpackError } from "../errors.js";
-import { checkPlanForLaunch, commentLine, phaseNumber, shellCommand, shellQuote, type LaunchFile } from "./launch-file.js";
+import { checkPlanForLaunch, commentLine, firstPhaseArgument, phaseNumber, shellCommand, shellQuote, type LaunchFile } from "./launch-file.js";
 import type { TaskPlan } from "./plan-types.js";
 
 export interface SlurmOptions {
@@ -93,11 +93,7 @@ function submitScript(plan: TaskPlan, o: SlurmOptions, scripts: { nn: string; na
     `# Usage: submit.sh [FIRST]   start at phase FIRST (1-${n}, default 1), e.g. after re-running a failed phase's tasks.`,
     "set -eu",
     'here=$(cd "$(dirname "$0")" && pwd)',
-    "first=${1:-1}",
-    'case $first in',
-    `  '' | *[!0-9]*) echo "usage: $0 [FIRST]  (FIRST = 1-${n}, the phase to start at)" >&2; exit 2 ;;`,
-    "esac",
-    `if [ "$first" -lt 1 ] || [ "$first" -gt ${n} ]; then echo "usage: $0 [FIRST]  (FIRST = 1-${n}, the phase to start at)" >&2; exit 2; fi`,
+    ...firstPhaseArgument(n),
     "",
     "# Slurm does not create the folder of --output: a task whose log cannot be opened fails.",
     `mkdir -p ${shellQuote(`${plan.workDir}/${SLURM_LOG_DIR}`)}`,

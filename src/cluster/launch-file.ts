@@ -95,3 +95,9 @@ export function phaseNumber(i: number, count: number): string {
 export function commentLine(text: string): string {
   return text.replace(/\s+/g, " ").trim();
 }
+
+/** submit.sh's optional first argument, the phase to start at (1–n): read into $first, exit 2 when it is not one. */
+export function firstPhaseArgument(n: number): string[] {
+  const usage = `echo "usage: $0 [FIRST]  (FIRST = 1-${n}, the phase to start at)" >&2; exit 2`;
+  return ["first=${1:-1}", "case $first in", `  '' | *[!0-9]*) ${usage} ;;`, "esac", `if [ "$first" -lt 1 ] || [ "$first" -gt ${n} ]; then ${usage}; fi`];
+}

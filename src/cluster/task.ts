@@ -22,7 +22,7 @@ import { linesPhase, openLinesCollector } from "./lines-phase.js";
 import type { StripRepeatedLinesOptions } from "../stages/strip-repeated-lines.js";
 import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
-import { planKey, recordsBefore, summaryFile, unitsOf, UnitOutput, type TaskEnv } from "./unit-io.js";
+import { planKey, recordsBefore, summaryFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
 import { clearTemporaries, logPath, markDone, markFailed, markStarted, phaseDir, requireDone, writeAtomic, type TaskDone } from "./workdir.js";
 
 export interface TaskOptions {
@@ -36,6 +36,8 @@ export interface TaskOptions {
   progress?: (counts: Ledger["counts"]) => void;
   /** Shared across the tasks of one local run, so its report covers them all. */
   buildCache?: BuildCache;
+  /** The units of work, when the caller has listed them already (a local run lists them once). */
+  units?: Unit[];
 }
 
 export interface TaskResult {
@@ -70,7 +72,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const phase = plan.phases[k];
   if (!Number.isInteger(index) || index < 0 || index >= phase.tasks)
     throw new SiftpackError("SP_USAGE", `phase "${phase.name}" has ${phase.tasks} task${phase.tasks === 1 ? "" : "s"} (indexes 0–${phase.tasks - 1}); got index ${index}`);
-  const units = await unitsOf(p);
+  const units = opts.units ?? (await unitsOf(p));
   const key = planKey(p, units, plan);
   const work = plan.workDir;
   await writeAtomic(join(work, "plan.json"), JSON.stringify({ pipeline: plan.pipeline, outDir: plan.outDir, key, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) }, null, 2) + "\n");

@@ -63,7 +63,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   try {
     for (const phase of plan.phases) {
       for (let i = 0; i < phase.tasks; i++) {
-        const r = await runTask(p, phase.name, i, { log: opts.log, workers: opts.workers, plan, buildCache: cache, progress });
+        const r = await runTask(p, phase.name, i, { log: opts.log, workers: opts.workers, plan, buildCache: cache, progress, units });
         manifest = r.manifest ?? manifest;
       }
     }
