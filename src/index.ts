@@ -1,6 +1,6 @@
 // The library: run a pipeline from code, or use and extend the stages.
 export { loadPipeline, parsePipeline, type LoadedPipeline } from "./pipeline/load.js";
-export { runPipeline, type RunOptions, type RunResult, type RunProgress } from "./pipeline/run.js";
+export { runPipeline, type RunOptions, type RunResult, type RunProgress } from "./engine/run.js";
 export type { PipelineConfig, SourceConfig } from "./pipeline/config.js";
 export { STAGES, defineStage, type Stage, type StageDefinition } from "./stages/index.js";
 export { normalizeText, type NormalizeOptions } from "./stages/normalize.js";

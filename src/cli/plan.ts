@@ -6,11 +6,11 @@ import { listFiles } from "../sources/source.js";
 import { STAGES } from "../stages/index.js";
 import { dirname, join, resolve, sep } from "node:path";
 import { fileURLToPath } from "node:url";
-import { planPhases } from "../cluster/plan.js";
-import { unitsOf } from "../cluster/unit-io.js";
-import { slurmFiles } from "../cluster/emit-slurm.js";
-import { kubernetesFiles } from "../cluster/emit-kubernetes.js";
-import { writeLaunchFiles } from "../cluster/launch-file.js";
+import { planPhases } from "../engine/plan.js";
+import { unitsOf } from "../engine/unit-io.js";
+import { slurmFiles } from "../launch/emit-slurm.js";
+import { kubernetesFiles } from "../launch/emit-kubernetes.js";
+import { writeLaunchFiles } from "../launch/launch-file.js";
 
 interface Args {
   file: string;

@@ -1,6 +1,6 @@
 // Build progress on stderr: two redrawn lines and a closing table on a terminal; pino lines anywhere else.
 import { readdirSync, readFileSync, readlinkSync, realpathSync } from "node:fs";
-import type { RunProgress } from "../pipeline/run.js";
+import type { RunProgress } from "../engine/run.js";
 import type { Logger } from "../types.js";
 import type { FateCounts } from "../output/ledger.js";
 import { table } from "./summary.js";

@@ -1,7 +1,7 @@
 // `siftpack run FILE`: builds the dataset and prints a summary; with --lock, records or checks a lock file.
 import type { CommandModule } from "yargs";
 import { loadPipeline, displayPath } from "../pipeline/load.js";
-import { runPipeline } from "../pipeline/run.js";
+import { runPipeline } from "../engine/run.js";
 import { compareLocks, lockOf, readLock, writeLock } from "../output/lock.js";
 import { SiftpackError } from "../errors.js";
 import { progressDisplay } from "./progress.js";

@@ -3,7 +3,7 @@ import type { CommandModule } from "yargs";
 import { readFile } from "node:fs/promises";
 import { join } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { phaseStates } from "../cluster/workdir.js";
+import { phaseStates } from "../engine/workdir.js";
 
 interface Args {
   workdir: string;

@@ -1,7 +1,7 @@
 // `siftpack task FILE --phase P [--index I]`: runs one task of the build's task plan (on a cluster node).
 import type { CommandModule } from "yargs";
 import { loadPipeline } from "../pipeline/load.js";
-import { runTask } from "../cluster/task.js";
+import { runTask } from "../engine/task.js";
 import { SiftpackError } from "../errors.js";
 import { makeLogger } from "./log.js";
 

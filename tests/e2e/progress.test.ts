@@ -4,7 +4,7 @@ import { spawnSync } from "node:child_process";
 import { join } from "node:path";
 import { ROOT, siftpack, tempDir } from "./cli.js";
 import { bar, formatBytes, formatDuration, progressDisplay, ProgressState } from "../../src/cli/progress.js";
-import type { RunProgress } from "../../src/pipeline/run.js";
+import type { RunProgress } from "../../src/engine/run.js";
 
 const ESC = "\x1b";
 

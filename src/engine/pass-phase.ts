@@ -4,8 +4,8 @@
 import { orderedMap } from "../parallel/pool.js";
 import { BATCHES_AHEAD, batched, recordPool, type RecordPool } from "../parallel/record-pool.js";
 import { toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
-import { parallelTokenize } from "../pipeline/cached-tokenize.js";
-import { recordFailure } from "../pipeline/read-units.js";
+import { parallelTokenize } from "./cached-tokenize.js";
+import { recordFailure } from "./record-failure.js";
 import { encoderFor, type TokenizeOptions } from "../stages/tokenize.js";
 import type { BuildCache } from "../cache/build-cache.js";
 import type { Stage } from "../stages/stage.js";

@@ -6,7 +6,7 @@
 import { rm } from "node:fs/promises";
 import { BuildCache } from "../cache/build-cache.js";
 import { TokenStoreReader, TokenStoreWriter } from "../cache/token-store.js";
-import { unitId, recordFailure } from "./read-units.js";
+import { unitId, recordFailure } from "./record-failure.js";
 import { xxh64String } from "../lib/hash.js";
 import type { TokenizeOptions } from "../stages/tokenize.js";
 import { toolVersion } from "../output/manifest.js";

@@ -8,7 +8,7 @@ import { posix } from "node:path";
 import { stringify } from "yaml";
 import { SiftpackError } from "../errors.js";
 import { checkPlanForLaunch, commentLine, firstPhaseArgument, phaseNumber, shellCommand, shellQuote, type LaunchFile } from "./launch-file.js";
-import type { TaskPlan } from "./plan-types.js";
+import type { TaskPlan } from "../engine/plan-types.js";
 
 export interface KubernetesOptions {
   /** How to invoke siftpack inside the image, e.g. `["node", "/app/bin/siftpack.js"]` or `["siftpack"]`. */

@@ -23,7 +23,7 @@ const cannotRun =
     : process.getuid?.() !== 0
       ? "needs root: slurmd starts each job as its submitter"
       : undefined;
-if (cannotRun) console.warn(`tests/cluster/slurm.test.ts skipped: ${cannotRun}`);
+if (cannotRun) console.warn(`tests/launch/slurm.test.ts skipped: ${cannotRun}`);
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
@@ -53,7 +53,7 @@ describe.skipIf(cannotRun !== undefined)("on a local single-node Slurm cluster",
     const r = spawnSync(SCRIPT, ["start", clusterDir], { encoding: "utf8", timeout: 90_000 });
     if (r.status !== 0) {
       down = `\`${SCRIPT} start ${clusterDir}\` exited ${r.status ?? r.signal}: ${r.stderr.trim()}`;
-      console.warn(`tests/cluster/slurm.test.ts: the cluster did not come up, its tests are skipped.\n${down}`);
+      console.warn(`tests/launch/slurm.test.ts: the cluster did not come up, its tests are skipped.\n${down}`);
       return;
     }
     env = { SLURM_CONF: join(clusterDir, "slurm.conf") };

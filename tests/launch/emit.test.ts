@@ -7,10 +7,10 @@ import { join, resolve } from "node:path";
 import fc from "fast-check";
 import { parse } from "yaml";
 import { SiftpackError } from "../../src/errors.js";
-import { SBATCH_OPTIONS, slurmFiles, type SlurmOptions } from "../../src/cluster/emit-slurm.js";
-import { kubernetesFiles, type KubernetesOptions } from "../../src/cluster/emit-kubernetes.js";
-import { shellCommand, writeLaunchFiles, type LaunchFile } from "../../src/cluster/launch-file.js";
-import type { TaskPlan } from "../../src/cluster/plan-types.js";
+import { SBATCH_OPTIONS, slurmFiles, type SlurmOptions } from "../../src/launch/emit-slurm.js";
+import { kubernetesFiles, type KubernetesOptions } from "../../src/launch/emit-kubernetes.js";
+import { shellCommand, writeLaunchFiles, type LaunchFile } from "../../src/launch/launch-file.js";
+import type { TaskPlan } from "../../src/engine/plan-types.js";
 
 const ROOT = resolve(import.meta.dirname, "../..");
 

@@ -2,7 +2,7 @@
 import { chmod, mkdir, rename, unlink, writeFile } from "node:fs/promises";
 import { isAbsolute, join } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import type { TaskPlan } from "./plan-types.js";
+import type { TaskPlan } from "../engine/plan-types.js";
 
 export interface LaunchFile {
   /** A bare file name (no folder), e.g. `01-read.sbatch`. */

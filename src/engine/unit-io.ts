@@ -10,7 +10,7 @@ import { toolVersion } from "../output/manifest.js";
 import { BuildCache } from "../cache/build-cache.js";
 import { dropEvent, eventRecord, readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { copiesFor } from "../pipeline/weights.js";
+import { copiesFor } from "./weights.js";
 import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { Phase, PhasePlan } from "./plan.js";
 import { AtomicStream, unitName, type TaskDone } from "./workdir.js";

@@ -6,7 +6,7 @@
 // override the scripts' (sbatch(1), "INPUT ENVIRONMENT VARIABLES"): `sbatch --array=3 FILE` re-runs one task.
 import { SiftpackError } from "../errors.js";
 import { checkPlanForLaunch, commentLine, firstPhaseArgument, phaseNumber, shellCommand, shellQuote, type LaunchFile } from "./launch-file.js";
-import type { TaskPlan } from "./plan-types.js";
+import type { TaskPlan } from "../engine/plan-types.js";
 
 export interface SlurmOptions {
   /** How to invoke siftpack on the nodes, e.g. `["node", "/abs/path/bin/siftpack.js"]`. */

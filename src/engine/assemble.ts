@@ -10,7 +10,7 @@ import { tokenizerFromJson, TRAINED_FILE } from "../tokenizer/index.js";
 import { createHash } from "node:crypto";
 import { readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
-import { copiesFor } from "../pipeline/weights.js";
+import { copiesFor } from "./weights.js";
 import { Ledger } from "../output/ledger.js";
 import { ShardWriter, type Emit } from "../output/shard-writer.js";
 import { prepareStaging, publishStaging } from "../output/output-dir.js";

@@ -1,14 +1,14 @@
-// Runs a loaded pipeline on this machine: the same phases a cluster runs as tasks (src/cluster/).
+// Runs a loaded pipeline on this machine: the same phases a cluster runs as tasks (src/engine/).
 import { basename, dirname, join } from "node:path";
 import { rm } from "node:fs/promises";
 import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
 import type { Manifest } from "../output/manifest.js";
 import type { Logger } from "../types.js";
-import type { LoadedPipeline } from "./load.js";
-import type { InputProgress } from "./read-units.js";
-import { planPhases } from "../cluster/plan.js";
-import { runTask } from "../cluster/task.js";
-import { unitsOf } from "../cluster/unit-io.js";
+import type { LoadedPipeline } from "../pipeline/load.js";
+import type { InputProgress } from "./record-failure.js";
+import { planPhases } from "./plan.js";
+import { runTask } from "./task.js";
+import { unitsOf } from "./unit-io.js";
 import { prepareStaging } from "../output/output-dir.js";
 
 export interface RunOptions {

@@ -11,7 +11,7 @@ import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
 import { BATCHES_AHEAD, batched, type RecordPool } from "../parallel/record-pool.js";
 import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
-import { recordFailure } from "../pipeline/read-units.js";
+import { recordFailure } from "./record-failure.js";
 import { encoderFor } from "../stages/tokenize.js";
 import { hashFile, hex64, loadHasher } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
