@@ -11,7 +11,7 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 
 const dist = (p) => new URL(`../dist/${p}`, import.meta.url).href;
-const { createMinhashStage } = await import(dist("dedup/minhash-stage.js"));
+const dedupStage = (await import(dist("stages/dedup.js"))).default;
 const { dedupOptions } = await import(dist("dedup/options.js"));
 const { Shingler, shingleSet, jaccard } = await import(dist("dedup/shingles.js"));
 
@@ -64,7 +64,7 @@ async function* input() {
   for (const p of paras) yield { id: p.id, source: "copyright", text: p.text, meta: {}, origin: { file: p.id, line: 1 }, seq: seq++ };
 }
 let t = performance.now();
-for await (const r of createMinhashStage(o)(input(), ctx)) cluster.set(r.id, r.id);
+for await (const r of (await dedupStage.create(o, { baseDir: "." }))(input(), ctx)) cluster.set(r.id, r.id);
 const stageSec = (performance.now() - t) / 1000;
 rmSync(workDir, { recursive: true, force: true });
 

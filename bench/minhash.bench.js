@@ -156,7 +156,7 @@ async function throughput() {
 
 /** A child process runs the whole stage over generated documents; its peak RSS is the stage's plus Node's baseline. */
 async function memoryChild(n) {
-  const { createMinhashStage } = await import(dist("dedup/minhash-stage.js"));
+  const dedupStage = (await import(dist("stages/dedup.js"))).default;
   const { dedupOptions } = await import(dist("dedup/options.js"));
   const issues = [];
   const o = dedupOptions.check({ method: "minhash", memory_mb: opt("budget", 1024) }, [], issues);
@@ -197,7 +197,7 @@ async function memoryChild(n) {
     log: { info: (o) => console.error(JSON.stringify(o)), warn: () => undefined, error: () => undefined, debug: () => undefined },
   };
   const t = performance.now();
-  for await (const r of createMinhashStage(o)(input(), ctx)) {
+  for await (const r of (await dedupStage.create(o, { baseDir: "." }))(input(), ctx)) {
     kept++;
     textBytes += r.text.length;
   }

@@ -1,8 +1,10 @@
 // The library: run a pipeline from code, or use and extend the stages.
 export { loadPipeline, parsePipeline, type LoadedPipeline } from "./pipeline/load.js";
-export { runPipeline, type RunOptions, type RunResult, type RunProgress } from "./engine/run.js";
+export { runPipeline, type RunOptions, type RunResult } from "./engine/run.js";
+export type { BuildProgress, PhaseProgress, PhaseTiming } from "./engine/progress.js";
 export type { PipelineConfig, SourceConfig } from "./pipeline/config.js";
 export { STAGES, defineStage, type Stage, type StageDefinition } from "./stages/index.js";
+export { keyedStage, type KeyedForm } from "./stages/keyed.js";
 export { normalizeText, type NormalizeOptions } from "./stages/normalize.js";
 export { filterReason, countWords, type FilterOptions } from "./stages/filter.js";
 export { assignSplit, splitKey } from "./stages/split.js";

@@ -38,7 +38,7 @@ export const runCommand: CommandModule<object, Args> = {
       .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds (--no-cache recomputes them)" })
       .option("check", { type: "boolean", describe: "with --lock: fail (exit 1) listing what differs from the lock, and leave it unchanged" })
       .option("keep-work", { type: "boolean", describe: "keep the phases' work directory (.<out>.run beside the output) after the build" })
-      .option("quiet", { type: "boolean", describe: "no progress lines or closing table on stderr, even on a terminal: only the JSON log" })
+      .option("quiet", { type: "boolean", describe: "warnings and errors only: no progress lines, no closing table, log level warn (unless SIFTPACK_LOG is set)" })
       .check((a) => {
         if (a.check && !a.lock) throw new SiftpackError("SP_USAGE", "--check needs --lock FILE");
         return true;
@@ -47,13 +47,13 @@ export const runCommand: CommandModule<object, Args> = {
     // The display owns the logger, so that on a terminal log lines are written above the progress lines.
     const display = progressDisplay({ quiet: args.quiet });
     const log = display.log;
-    const pipeline = await loadPipeline(args.file, { outDir: args.out });
-    const locked = args.lock ? await readLock(args.lock) : undefined;
-    if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
     let finished = false;
     try {
+      const pipeline = await loadPipeline(args.file, { outDir: args.out });
+      const locked = args.lock ? await readLock(args.lock) : undefined;
+      if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
       const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers, keepWork: args.keepWork });
-      display.finish(true, manifest.records);
+      display.finish(true);
       finished = true;
       if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits, cache }, null, 2) + "\n");
       else process.stdout.write(formatSummary(displayPath(outDir), manifest) + cacheLine(cache));
@@ -69,6 +69,7 @@ export const runCommand: CommandModule<object, Args> = {
         }
       }
     } finally {
+      // Erases the progress lines before the error is printed; a failed build gets no table.
       if (!finished) display.finish(false);
     }
   },

@@ -3,7 +3,8 @@ import type { CommandModule } from "yargs";
 import { loadPipeline } from "../pipeline/load.js";
 import { runTask } from "../engine/task.js";
 import { SiftpackError } from "../errors.js";
-import { makeLogger } from "./log.js";
+import type { BuildProgress } from "../engine/progress.js";
+import { progressDisplay } from "./progress.js";
 
 interface Args {
   file: string;
@@ -11,6 +12,7 @@ interface Args {
   index?: number;
   workers?: number;
   cache?: boolean;
+  quiet?: boolean;
 }
 
 /** The task index: --index, else the scheduler's array index (Slurm job arrays, Kubernetes indexed Jobs). */
@@ -34,11 +36,23 @@ export const taskCommand: CommandModule<object, Args> = {
       .option("phase", { type: "string", demandOption: true, describe: "phase name, as plan --tasks lists them" })
       .option("index", { type: "number", describe: "task index (default: $SLURM_ARRAY_TASK_ID or $JOB_COMPLETION_INDEX)" })
       .option("workers", { type: "number", describe: "threads this task uses (default: the machine's cores)" })
-      .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds" }),
+      .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds" })
+      .option("quiet", { type: "boolean", describe: "warnings and errors only: no progress lines, no closing table, log level warn (unless SIFTPACK_LOG is set)" }),
   handler: async (args) => {
     const index = taskIndex(args.index);
-    const p = await loadPipeline(args.file);
-    const r = await runTask(p, args.phase, index, { log: makeLogger(), workers: args.workers, cache: args.cache });
-    process.stdout.write(`task ${index} of phase ${args.phase} done in ${r.done.seconds.toFixed(1)} s\n`);
+    // The same display as `run`: a task run by hand on a terminal shows its phase moving; under a
+    // scheduler stderr is a file, which gets JSON lines with a "progress" line every ten seconds.
+    const display = progressDisplay({ quiet: args.quiet });
+    let finished = false;
+    try {
+      const p = await loadPipeline(args.file);
+      const r = await runTask(p, args.phase, index, { log: display.log, onProgress: (b: BuildProgress) => display.update(b), workers: args.workers, cache: args.cache });
+      display.finish(true);
+      finished = true;
+      process.stdout.write(`task ${index} of phase ${args.phase} done in ${r.done.seconds.toFixed(1)} s\n`);
+    } finally {
+      // Erases the progress lines before the error is printed; a failed task gets no table.
+      if (!finished) display.finish(false);
+    }
   },
 };

@@ -94,5 +94,5 @@ export function explainBands(o: { threshold: number; permutations: number; bands
   const at = [...new Set([0.5, 0.7, 0.8, 0.9, sHigh])].sort((a, b) => a - b);
   const probs: Record<string, number> = {};
   for (const s of at) probs[String(s)] = round(candidateProbability(s, bands, rows));
-  return { passes: 2, bands, rows, band_threshold: round(bandThreshold(bands, rows)), candidate_probability: probs };
+  return { steps: "collect per unit, buckets per partition, clusters once", bands, rows, band_threshold: round(bandThreshold(bands, rows)), candidate_probability: probs };
 }

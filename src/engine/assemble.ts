@@ -4,10 +4,10 @@
 import { copyFile, readFile } from "node:fs/promises";
 import { join } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { createPacker, type Packer, type PackOptions } from "../stages/pack.js";
-import { encoderFor, tokenizeBounds, type TokenizeOptions } from "../stages/tokenize.js";
-import { tokenizerFromJson, TRAINED_FILE } from "../tokenizer/index.js";
-import { createHash } from "node:crypto";
+import { createPacker, type Packer } from "../stages/pack.js";
+import { outputSettings } from "../stages/output-settings.js";
+import { formOf } from "../stages/stage.js";
+import { TRAINED_FILE } from "../tokenizer/index.js";
 import { readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { copiesFor } from "./weights.js";
@@ -19,18 +19,14 @@ import { writeBuildInfo } from "../output/build-info.js";
 import { ANALYZERS, type Analyzer } from "../analysis/analyzer.js";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
-import { dropsFile, idFixer, lineOffsets, recordsBefore, summaryFile, unitsFile, type TaskEnv } from "./unit-io.js";
+import { dropsFile, fixFromRead, unitFixes, recordsBefore, summaryFile, unitsFile, type TaskEnv } from "./unit-io.js";
+import type { StageContext } from "../types.js";
 import { STAGES } from "../stages/index.js";
 import type { TaskDone } from "./workdir.js";
 
-export interface AssembleOptions {
-  /** Called with running counts (for a progress display). */
-  progress?: (counts: Ledger["counts"]) => void;
-}
-
 type Fate = { i: number; bad?: QuarantineEntry; drop?: { r: DocRecord; reason: string; detail?: Record<string, unknown> } };
 
-export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): Promise<Manifest> {
+export async function assemblePhase(env: TaskEnv): Promise<Manifest> {
   const { p, plan } = env;
   const { config } = p;
   const startedAt = new Date();
@@ -44,11 +40,9 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
 
   const staging = await prepareStaging(p.outDir);
   const ledger = new Ledger(join(staging, "ledger.jsonl.gz"), join(staging, "quarantine.jsonl"));
-  const tokOpts = config.stages.find((s) => s.name === "tokenize")!.options as TokenizeOptions;
-  const packOpts = config.stages.find((s) => s.name === "pack")!.options as PackOptions;
-  const bounds = tokenizeBounds(tokOpts, p.baseDir);
-  const tokenDtype = bounds.vocabSize <= 65536 ? "uint16" : "uint32";
-  const segmentDtype = packOpts.length < 65536 ? "uint16" : "uint32";
+  const out = outputSettings(config.stages, p.baseDir);
+  const packOpts = out.pack;
+  const { tokenDtype, segmentDtype } = out;
 
   // Stage files in phase order, then the counters of every task.
   const stageFiles: string[] = [];
@@ -56,8 +50,11 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
   for (const ph of plan.phases) {
     for (const d of env.done.get(ph.name) ?? []) {
       for (const f of d.files) {
-        await copyFile(join(work, ph.name, "files", f), join(staging, f));
-        stageFiles.push(f);
+        // A stage used twice writes its file twice: the later ones get -2, -3 … before the extension.
+        let name = f;
+        for (let n = 2; stageFiles.includes(name); n++) name = f.replace(/(\.[^.]*)?$/, (ext) => `-${n}${ext}`);
+        await copyFile(join(work, ph.name, "files", f), join(staging, name));
+        stageFiles.push(name);
         if (f === TRAINED_FILE) trainedPath = join(staging, f);
       }
     }
@@ -65,18 +62,18 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
   const stageCounts: Record<string, number> = {};
   const count = (name: string, n = 1) => (stageCounts[name] = (stageCounts[name] ?? 0) + n);
   for (const d of allDone) for (const [k, n] of Object.entries(d.counts)) count(k, n);
-  // Stages that ran per file hand their whole-stream checks to `gather`, with every file's summary in input order.
+  // Stages of form `unit` hand their whole-stream checks to `gather`, with every unit's summary in input order.
   for (const ph of plan.phases) {
     if (ph.does.kind !== "pass") continue;
     for (const [k, e] of ph.does.entries.entries()) {
-      const def = STAGES[e.name];
-      if (!def.gather) continue;
+      const f = formOf(STAGES[e.name], e.options);
+      if (f.kind !== "unit") continue;
       const summaries: unknown[] = [];
       for (const unit of env.units) {
         const list = JSON.parse(await readFile(summaryFile(work, ph.name, unit.u), "utf8")) as unknown[];
         if (list[k] !== undefined && list[k] !== null) summaries.push(list[k]);
       }
-      await def.gather(summaries, e.options, { seed: config.seed, baseDir: p.baseDir, log: env.log, count, workDir: staging, addOutputFile: (f) => stageFiles.push(f) });
+      await f.gather(summaries, e.options, { seed: config.seed, baseDir: p.baseDir, log: env.log, count, workDir: staging, addOutputFile: (f) => stageFiles.push(f) });
     }
   }
 
@@ -96,14 +93,13 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
     let w = writers.get(split);
     if (!w) {
       const writer = new ShardWriter({ outDir: staging, split, length: packOpts.length, shardBlocks: config.output.shard_blocks, tokenDtype, segmentDtype, emit: packOpts.emit as Emit[] });
-      const packer = createPacker(packOpts, bounds.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split });
+      const packer = createPacker(packOpts, out.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split });
       w = { writer, packer };
       writers.set(split, w);
     }
     return w;
   };
 
-  const fix = idFixer(env);
   const k = env.phase.index;
   // Explicit ids must be unique across a source's files (each file checked its own while reading).
   const multiFile = new Set(config.sources.filter((s) => s.id !== undefined && env.units.filter((u) => u.source.name === s.name).length > 1).map((s) => s.name));
@@ -111,13 +107,13 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
   try {
     for (const unit of env.units) {
       const fates: Fate[] = [];
-      const lineOffset = lineOffsets(env)[unit.u];
+      const fix = unitFixes(env)[unit.u];
       for await (const e of readEvents(unitsFile(work, "read", unit.u))) {
-        if (e.k === "bad") fates.push({ i: e.i, bad: { ...e.entry, line: e.entry.line + lineOffset } });
+        if (e.k === "bad") fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
         else if (e.k === "drop") {
           const d = dropOf(e);
-          d.r.origin.line += lineOffset;
-          fates.push({ i: e.i, drop: d });
+          fixFromRead(env, unit.u, d.r);
+          fates.push({ i: d.r.seq, drop: d });
         }
       }
       for (const ph of plan.phases.slice(1, k)) {
@@ -126,12 +122,12 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
       }
       // Drops made while reading (decisions applied now), in row order as the records come.
       const late: Fate[] = [];
-      const records = recordsBefore(env, k, unit.u, (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }), count);
+      const ctx: StageContext = { seed: config.seed, log: env.log, workDir: staging, addOutputFile: () => {}, count, drop: (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }) };
+      const records = recordsBefore(env, k, unit.u, ctx);
       const unitIds: string[] = [];
       const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
         if ("rec" in f || f.drop) {
           const r = "rec" in f ? f.rec : f.drop!.r;
-          if (!("rec" in f)) fix(unit.u, r);
           if (multiFile.has(r.source)) {
             if (seenIds.has(`${r.source}\u0000${r.id}`)) {
               await ledger.quarantined({ source: r.source, file: r.origin.file, line: r.origin.line, error: `duplicate id "${r.id}" (also in an earlier file of the source)` });
@@ -154,7 +150,6 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
         for (let c = 0; c < n; c++) packer.add(r.tokens!);
         for (const a of analyzers) await a.analyzer.add(r);
         if (writer.pending > 0) await writer.writePending();
-        opts.progress?.(ledger.counts);
       };
       fates.sort((a, b) => a.i - b.i);
       let at = 0;
@@ -194,17 +189,15 @@ export async function assemblePhase(env: TaskEnv, opts: AssembleOptions = {}): P
 
   const splitOrder = ["train", "val", "test"];
   const splits = [...writers.keys()].sort((a, b) => splitOrder.indexOf(a) - splitOrder.indexOf(b));
-  // A tokenizer trained in this build keeps the name training gave it: trained@<digest of its file>.
-  const trainedJson = trainedPath ? await readFile(trainedPath, "utf8") : undefined;
-  const encoder = trainedJson
-    ? tokenizerFromJson(JSON.parse(trainedJson), TRAINED_FILE, `trained@${createHash("sha256").update(trainedJson).digest("hex").slice(0, 16)}`, { eosToken: tokOpts.eos_token ?? "<|endoftext|>" })
-    : encoderFor(tokOpts, p.baseDir);
+  const encoder = out.encoder(trainedPath ? await readFile(trainedPath, "utf8") : undefined);
   const manifest = await writeManifest(staging, {
     pipeline: p,
     inputs,
     encoder,
-    tokenize: tokOpts,
-    pack: packOpts,
+    bos: out.bos,
+    eos: out.eos,
+    length: packOpts.length,
+    strategy: packOpts.strategy,
     tokenDtype,
     segmentDtype,
     splits: Object.fromEntries(splits.map((s) => [s, writers.get(s)!.writer.stats])),

@@ -8,7 +8,6 @@ import { BuildCache } from "../cache/build-cache.js";
 import { TokenStoreReader, TokenStoreWriter } from "../cache/token-store.js";
 import { unitId, recordFailure } from "./record-failure.js";
 import { xxh64String } from "../lib/hash.js";
-import type { TokenizeOptions } from "../stages/tokenize.js";
 import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
 import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
@@ -26,12 +25,13 @@ interface Pending {
 const EMPTY: BatchOut = { items: [], counts: {}, tokens: new Uint32Array(0), ends: new Int32Array(0) };
 
 /**
+ * A stage of form `record` that `encodes` (sets tokens from the text alone), run on the pool.
  * `cache` undefined: no caching; batches still run in parallel. `encoderName` identifies the
- * tokenizer in cache keys; `part` names the part of a file being read when a file is read in parts.
+ * stage and its tokenizer in cache keys; `part` names the part of a file being read when a file is read in parts.
  */
-export function parallelTokenize(o: TokenizeOptions, pool: RecordPool, cache: BuildCache | undefined, encoderName: string, part: () => string | undefined = () => undefined): Stage {
+export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache | undefined, encoderName: string, part: () => string | undefined = () => undefined): Stage {
   // The encoder's name carries a hash of a tokenizer file's content, so editing the file invalidates the entries.
-  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, part: part() ?? null, tokenize: o, encoder: encoderName });
+  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, part: part() ?? null, options: o, encoder: encoderName });
   return async function* tokenize(input, ctx) {
     // Lookup side: the cache entry of the file now being batched.
     let reading: { id: string; reader?: TokenStoreReader } | undefined;

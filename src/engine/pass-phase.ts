@@ -1,14 +1,14 @@
-// Per-file phases after read: each input file's records (with the decisions since they were last
-// written applied) go through per-record stages on the worker pool, tokenize with its cache, and
-// the collector of the next global step; records and drops are written per file.
+// The passes after read: each unit's records (with the decisions since they were last written
+// applied) go through the stages of form `record` on the worker pool (an encoding stage with the
+// token cache) and of form `unit`, then to the collector of the next keyed stage; records and
+// drops are written per unit.
 import { orderedMap } from "../parallel/pool.js";
 import { BATCHES_AHEAD, batched, recordPool, type RecordPool } from "../parallel/record-pool.js";
 import { toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
 import { parallelTokenize } from "./cached-tokenize.js";
 import { recordFailure } from "./record-failure.js";
-import { encoderFor, type TokenizeOptions } from "../stages/tokenize.js";
 import type { BuildCache } from "../cache/build-cache.js";
-import type { Stage } from "../stages/stage.js";
+import { formOf, type Stage } from "../stages/stage.js";
 import { STAGES } from "../stages/index.js";
 import type { StageEntry } from "../pipeline/config.js";
 import type { DocRecord, StageContext } from "../types.js";
@@ -39,7 +39,11 @@ function fromItem(item: Extract<BatchItem, { k: "drop" }>): DocRecord {
   return { id: b.id, source: b.source, text: b.text, meta: b.meta, origin: { file: b.file, line: b.line }, seq: b.seq };
 }
 
-/** The stream stages of a per-file phase: consecutive per-record stages share one pool; tokenize has its own (and its cache); stages with `gather` run here, one instance per file, and hand over a summary. */
+/**
+ * The stream stages of a per-unit pass: consecutive stages of form `record` share one pool; a
+ * stage that `encodes` has its own (and the token cache); stages of form `unit` run here, one
+ * instance per unit, and hand over a summary.
+ */
 export class PassStages {
   private readonly pools: RecordPool[] = [];
   private readonly parts: ((s: AsyncIterable<DocRecord>, ctx: StageContext, summaries: unknown[]) => AsyncIterable<DocRecord>)[] = [];
@@ -61,16 +65,16 @@ export class PassStages {
     };
     for (const [k, e] of entries.entries()) {
       const def = STAGES[e.name];
-      if (def.gather) {
+      const f = formOf(def, e.options);
+      if (f.kind === "unit") {
         flush();
         const stage = await def.create(e.options, { baseDir, workers: threads, perFile: true });
         self.parts.push((s, ctx, summaries) => stage(s, { ...ctx, summarize: (v) => (summaries[k] = v) }));
-      } else if (e.name === "tokenize") {
+      } else if (f.kind === "record" && f.encodes) {
         flush();
-        const o = e.options as TokenizeOptions;
         const pool = recordPool({ stages: [e], baseDir, seed }, threads);
         self.pools.push(pool);
-        const stage = parallelTokenize(o, pool, cache, encoderFor(o, baseDir).name, () => self.part);
+        const stage = parallelTokenize(e.options, pool, cache, `${e.name}:${def.identity?.(e.options, baseDir) ?? ""}`, () => self.part);
         self.parts.push((s, ctx) => stage(s, ctx));
       } else run.push(e);
     }
@@ -78,7 +82,7 @@ export class PassStages {
     return self;
   }
 
-  /** The file's records through every stage; `summaries[k]` gets the summary of entry k, if it has one. */
+  /** The unit's records through every stage; `summaries[k]` gets the summary of entry k, if it has one. */
   run(input: AsyncIterable<DocRecord>, ctx: StageContext, summaries: unknown[], part?: { start: number; end: number }): AsyncIterable<DocRecord> {
     this.part = part ? `${part.start}-${part.end}` : undefined;
     let s = input;

@@ -6,17 +6,17 @@ import { copyFile, open } from "node:fs/promises";
 import { join } from "node:path";
 import { readSourceFile, RecordMapper } from "../sources/source.js";
 import { BuildCache } from "../cache/build-cache.js";
-import { eventRecord, readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
+import { readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
 import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
 import { BATCHES_AHEAD, batched, type RecordPool } from "../parallel/record-pool.js";
 import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
 import { recordFailure } from "./record-failure.js";
-import { encoderFor } from "../stages/tokenize.js";
+import { STAGES } from "../stages/index.js";
+import { crashPoint } from "../lib/crash-point.js";
 import { hashFile, hex64, loadHasher } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { StageEntry } from "../pipeline/config.js";
-import type { Collector } from "./collect.js";
 import { unitsFile, type TaskEnv } from "./unit-io.js";
 import { AtomicStream, copyAtomic } from "./workdir.js";
 
@@ -31,7 +31,7 @@ export interface ReadUnitResult {
   counts: Record<string, number>;
 }
 
-export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, cache: BuildCache, collector?: Collector, progress?: () => void): Promise<ReadUnitResult> {
+export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, cache: BuildCache): Promise<ReadUnitResult> {
   const { p } = env;
   const unit = env.units[u];
   const spec = unit.source;
@@ -52,8 +52,8 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     size: unit.size,
     xxh64: whole?.xxh64 ?? null,
     seed: p.config.seed,
-    // A tokenizer file is named by a hash of its content, so editing it invalidates the unit.
-    prefix: entries.map((e) => ({ [e.name]: e.options, ...(e.name === "tokenize" ? { encoder: encoderFor(e.options, p.baseDir).name } : {}) })),
+    // What a stage depends on beyond its options (a tokenizer file's content) is part of the key.
+    prefix: entries.map((e) => ({ [e.name]: e.options, ...(STAGES[e.name].identity ? { identity: STAGES[e.name].identity!(e.options, p.baseDir) } : {}) })),
   });
   const out = unitsFile(env.plan.workDir, env.phase.name, u);
   const hit = await cache.lookup("read", key, ".jsonl");
@@ -62,16 +62,17 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
   if (hit) {
     cache.report.read.reused++;
     for await (const e of readEvents(hit)) {
-      if (e.k === "rec") {
-        records++;
-        await collector?.add(eventRecord(e));
-      } else if (e.k === "end") end = e;
+      if (e.k === "rec") records++;
+      else if (e.k === "end") end = e;
     }
     if (!end) throw new SiftpackError("SP_OUTPUT", `cache entry ${hit} ends without its end marker; remove it and run again`);
     await copyAtomic(hit, out);
+    env.meter.records(records);
+    env.meter.bytes(unit.range ? unit.range.end - unit.range.start : unit.size);
   } else {
     cache.report.read.computed++;
-    const r = await computeUnit(env, u, entries, pool, out, collector, progress);
+    const r = await computeUnit(env, u, entries, pool, out);
+    env.meter.bytes(unit.range ? unit.range.end - unit.range.start : unit.size);
     end = r.end;
     records = r.records;
     const pending = cache.pending("read", key, ".jsonl");
@@ -81,13 +82,14 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
   return { rows: end.rows, records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts };
 }
 
-async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, path: string, collector?: Collector, progress?: () => void) {
+async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, path: string) {
   const unit = env.units[u];
   const spec = unit.source;
   const mapper = new RecordMapper(spec);
   const out = await AtomicStream.open(path);
   const counts: Record<string, number> = {};
   let records = 0;
+  env.meter.reading(join(env.p.baseDir, unit.path), unit.range?.start ?? 0, unit.range ? unit.range.end - unit.range.start : unit.size);
   async function* items(): AsyncGenerator<BatchItem> {
     for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper, unit.range)) {
       const i = mapper.rows - 1;
@@ -108,11 +110,11 @@ async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool:
         } else {
           records++;
           lines += JSON.stringify(recordEvent(record!)) + "\n";
-          await collector?.add(record!);
         }
       }
       await out.write(lines);
-      progress?.();
+      crashPoint("read");
+      env.meter.records(result.items.length);
     }
     const end: Extract<UnitEvent, { k: "end" }> = { k: "end", rows: mapper.rows, counts };
     await out.write(JSON.stringify(end) + "\n");

@@ -1,14 +1,5 @@
-// Shared by the per-file phases: an input file's unit id, and errors of a stage that failed on a record.
+// Shared by the per-unit phases: an input file's id in the token cache, and errors of a stage that failed on a record.
 import { SiftpackError } from "../errors.js";
-
-/** How far reading has got: the input files finished (and their bytes on disk), and the one being read. */
-export interface InputProgress {
-  bytesDone: number;
-  filesDone: number;
-  /** Absolute path and size of the file being read (absent between files and at the end). */
-  file?: string;
-  fileSize?: number;
-}
 
 export function unitId(source: string, file: string): string {
   return `${source}\u0000${file}`;

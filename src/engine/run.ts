@@ -5,7 +5,7 @@ import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.j
 import type { Manifest } from "../output/manifest.js";
 import type { Logger } from "../types.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
-import type { InputProgress } from "./record-failure.js";
+import type { PhaseTiming, ProgressListener } from "./progress.js";
 import { planPhases } from "./plan.js";
 import { runTask } from "./task.js";
 import { unitsOf } from "./unit-io.js";
@@ -19,19 +19,8 @@ export interface RunOptions {
   cache?: boolean;
   /** Threads for the per-record stages and the tokenizer (default: the machine's cores). */
   workers?: number;
-  /** Called at most five times a second, and whenever an input file is finished, with running counts (for a progress display). */
-  onProgress?: (p: RunProgress) => void;
-}
-
-/** Running counts: records by fate so far, and how far reading the inputs has got. */
-export interface RunProgress extends InputProgress {
-  read: number;
-  kept: number;
-  dropped: number;
-  quarantined: number;
-  /** Sum of the input files' sizes on disk, known before reading starts. */
-  bytesTotal: number;
-  filesTotal: number;
+  /** Called at most five times a second, and at the end of every task, with the phase at work and the phases done. */
+  onProgress?: ProgressListener;
 }
 
 export interface RunResult {
@@ -39,9 +28,10 @@ export interface RunResult {
   manifest: Manifest;
   /** Which units came from the cache and which were computed. */
   cache: CacheReport;
+  /** Time, bytes and records of every phase. */
+  phases: PhaseTiming[];
 }
 
-/** How many times a record of a source with `weight` enters training: floor(w), plus one more with probability frac(w). */
 /**
  * Builds on this machine by running the task plan's phases in order, one task each (the result
  * does not depend on the number of tasks), every task using the worker pool. The work directory
@@ -56,14 +46,12 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   const cache = new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
   const units = await unitsOf(p);
-  const bytesTotal = units.reduce((a, u) => a + u.size, 0);
-  const progress = (c: { read: number; kept: number; dropped: number; quarantined: number }) =>
-    opts.onProgress?.({ read: c.read, kept: c.kept, dropped: c.dropped, quarantined: c.quarantined, bytesDone: bytesTotal, filesDone: units.length, bytesTotal, filesTotal: units.length });
+  const finished: PhaseTiming[] = [];
   let manifest: Manifest | undefined;
   try {
     for (const phase of plan.phases) {
       for (let i = 0; i < phase.tasks; i++) {
-        const r = await runTask(p, phase.name, i, { log: opts.log, workers: opts.workers, plan, buildCache: cache, progress, units });
+        const r = await runTask(p, phase.name, i, { log: opts.log, workers: opts.workers, plan, buildCache: cache, onProgress: opts.onProgress, finished, units });
         manifest = r.manifest ?? manifest;
       }
     }
@@ -73,5 +61,5 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   }
   await cache.prune();
   opts.log.info({ cache: cache.report }, "cache");
-  return { outDir: p.outDir, manifest: manifest!, cache: cache.report };
+  return { outDir: p.outDir, manifest: manifest!, cache: cache.report, phases: finished };
 }

@@ -8,21 +8,19 @@ import { SiftpackError } from "../errors.js";
 import { loadHasher } from "../lib/hash.js";
 import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
 import { recordPool } from "../parallel/record-pool.js";
-import { SignerPool } from "../dedup/pool.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { Logger, StageContext } from "../types.js";
 import type { Manifest } from "../output/manifest.js";
-import type { Ledger } from "../output/ledger.js";
+import { readdir, stat } from "node:fs/promises";
+import { crashPoint } from "../lib/crash-point.js";
+import { collectUnit, partitionStep, resolveStep } from "../stages/keyed.js";
 import { planPhases, shareOf, type PhasePlan } from "./plan.js";
-import { collectorParams, openCollector, type Collector } from "./collect.js";
 import { readUnit } from "./read-phase.js";
 import { PassStages } from "./pass-phase.js";
-import { bucketsPhase, clustersPhase, collectingPhase, exactPhase } from "./dedup-phases.js";
-import { linesPhase, openLinesCollector } from "./lines-phase.js";
-import type { StripRepeatedLinesOptions } from "../stages/strip-repeated-lines.js";
 import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
-import { planKey, recordsBefore, summaryFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
+import { PhaseMeter, type PhaseTiming, type ProgressListener } from "./progress.js";
+import { keyedDirs, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
 import { clearTemporaries, logPath, markDone, markFailed, markStarted, phaseDir, requireDone, writeAtomic, type TaskDone } from "./workdir.js";
 
 export interface TaskOptions {
@@ -33,7 +31,13 @@ export interface TaskOptions {
   cache?: boolean;
   /** The plan to follow (default: the pipeline's, with its `cluster.tasks`). */
   plan?: PhasePlan;
-  progress?: (counts: Ledger["counts"]) => void;
+  /** Progress of the task's phase (at most five reports a second, and at its end). */
+  onProgress?: ProgressListener;
+  /**
+   * Set by a local run, which runs every task of a phase in this process: the phases finished so
+   * far (the task that ends a phase adds its timing), and progress counts the phase's tasks.
+   */
+  finished?: PhaseTiming[];
   /** Shared across the tasks of one local run, so its report covers them all. */
   buildCache?: BuildCache;
   /** The units of work, when the caller has listed them already (a local run lists them once). */
@@ -81,12 +85,12 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
 
   const log = teeLogger(opts.log, logPath(work, phase.name, index), phase.name, index);
   const threads = Math.max(1, opts.workers ?? availableParallelism());
-  const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads };
+  const share = shareOf(index, phase.tasks, phase.perUnit ? units.length : plan.tasks);
+  const bytesTotal = await phaseBytes(plan, units, k, share);
+  const meter = new PhaseMeter({ phase: phase.name, index: k, phases: plan.phases.length, tasks: opts.finished ? phase.tasks : 1, bytesTotal }, opts.finished ?? [], opts.onProgress);
+  const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads, meter };
   await markStarted(work, phase.name, index);
-  await clearTemporaries(
-    phaseDir(work, phase.name),
-    phase.tasks === 1 ? undefined : shareOf(index, phase.tasks, phase.perFile ? units.length : plan.tasks),
-  );
+  await clearTemporaries(phaseDir(work, phase.name), phase.tasks === 1 ? undefined : share);
   const counts: Record<string, number> = {};
   const count = (name: string, n = 1) => (counts[name] = (counts[name] ?? 0) + n);
   const unitFacts: TaskDone["units"] = {};
@@ -98,63 +102,46 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   try {
     log.info({ phase: phase.name, task: index, tasks: phase.tasks }, "task started");
     const does = phase.does;
-    if (does.kind === "read" || does.kind === "pass") {
-      const { from, to } = shareOf(index, phase.tasks, units.length);
-      const params = does.collect ? collectorParams(does.collect, p.config.seed) : undefined;
-      const signer = params ? new SignerPool(params, threads > 1 ? threads : 0) : undefined;
-      const pool = does.kind === "read" ? recordPool({ stages: does.entries, baseDir: p.baseDir, seed: p.config.seed }, threads) : undefined;
-      const stages = does.kind === "pass" ? await PassStages.create(does.entries, p.baseDir, p.config.seed, threads, cache) : undefined;
+    if (does.kind === "read") {
+      const pool = recordPool({ stages: does.entries, baseDir: p.baseDir, seed: p.config.seed }, threads);
       try {
-        for (let u = from; u < to; u++) {
-          const collector: Collector | undefined = !does.collect
-            ? undefined
-            : does.collect.kind === "lines"
-              ? await openLinesCollector(does.collect.entry.options as StripRepeatedLinesOptions, work, phase.name, u, plan.tasks, count)
-              : await openCollector(does.collect, work, phase.name, u, p.config.seed, plan.tasks, signer);
-          try {
-            if (does.kind === "read") {
-              const r = await readUnit(env, u, does.entries, pool!, cache, collector);
-              for (const [name, n] of Object.entries(r.counts)) count(name, n);
-              unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines };
-            } else {
-              const out = await UnitOutput.open(work, phase.name, u);
-              const ctx: StageContext = { seed: p.config.seed, log, workDir: phaseDir(work, phase.name), addOutputFile: () => {}, count, drop: (r, reason, detail) => out.drop(r, reason, detail) };
-              const summaries: unknown[] = [];
-              try {
-                for await (const r of stages!.run(recordsBefore(env, k, u, ctx.drop, count), ctx, summaries, units[u].range)) {
-                  await collector?.add(r);
-                  await out.add(r);
-                }
-                if (summaries.length > 0) await writeAtomic(summaryFile(work, phase.name, u), JSON.stringify(summaries) + "\n");
-                await out.commit();
-              } catch (err) {
-                await out.abort();
-                throw err;
-              }
-              unitFacts[u] = { records: out.records };
-            }
-            await collector?.finish();
-          } catch (err) {
-            await collector?.abort();
-            throw err;
-          }
+        for (let u = share.from; u < share.to; u++) {
+          const r = await readUnit(env, u, does.entries, pool, cache);
+          for (const [name, n] of Object.entries(r.counts)) count(name, n);
+          unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines };
         }
       } finally {
-        await pool?.close();
-        await stages?.close();
-        await signer?.close();
+        await pool.close();
       }
-    } else if (does.kind === "exact") await exactPhase(env);
-    else if (does.kind === "buckets") {
-      const r = await bucketsPhase(env);
-      log.info({ phase: phase.name, task: index, comparisons: r.compared, pairs: r.edges }, "bucket partitions joined");
-    } else if (does.kind === "clusters") files = [await clustersPhase(env, count)];
-    else if (does.kind === "lines") await linesPhase(env, collectingPhase(env, k), count);
-    else if (does.kind === "whole") {
+    } else if (does.kind === "pass") {
+      const steps = does.collect === undefined ? undefined : plan.keyed.get(does.collect)!;
+      const dirs = does.collect === undefined ? undefined : keyedDirs(env, does.collect);
+      const collectors = steps ? await steps.form.collectors(steps.entry.options, { ...stepContext(env, count), threads }) : undefined;
+      const stages = await PassStages.create(does.entries, p.baseDir, p.config.seed, threads, cache);
+      try {
+        for (let u = share.from; u < share.to; u++) unitFacts[u] = { records: await passUnit(env, u, stages, count, collectors && dirs ? await collectUnit(dirs, collectors, u) : undefined) };
+      } finally {
+        await stages.close();
+        await collectors?.close();
+      }
+    } else if (does.kind === "partition") {
+      const steps = plan.keyed.get(does.keyed)!;
+      const dirs = keyedDirs(env, does.keyed);
+      for (let part = share.from; part < share.to; part++) {
+        crashPoint("partition");
+        await partitionStep(steps.form, steps.entry.options, dirs, part, stepContext(env, count));
+        meter.bytes(await partitionBytes(dirs.collect, part));
+      }
+    } else if (does.kind === "resolve") {
+      const steps = plan.keyed.get(does.keyed)!;
+      crashPoint("resolve");
+      files = await resolveStep(steps.form, steps.entry.options, keyedDirs(env, does.keyed), stepContext(env, count));
+      meter.bytes(bytesTotal);
+    } else if (does.kind === "whole") {
       const r = await wholePhase(env, does.entries, count);
       files = r.files;
       for (const [u, n] of r.records) unitFacts[u] = { records: n };
-    } else manifest = await assemblePhase(env, { progress: opts.progress });
+    } else manifest = await assemblePhase(env);
   } catch (err) {
     await markFailed(work, phase.name, index, (err as Error)?.message ?? String(err)).catch(() => {});
     // Into the task's log only: the caller reports the error itself.
@@ -172,6 +159,66 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   };
   const d: TaskDone = { plan: key, phase: phase.name, index, tasks: phase.tasks, counts, units: unitFacts, files, cache: report, seconds: (Date.now() - started) / 1000 };
   await markDone(work, d);
+  meter.taskDone();
+  if (opts.finished && index === phase.tasks - 1) meter.finish();
   log.info({ phase: phase.name, task: index, seconds: d.seconds }, "task done");
   return { done: d, manifest };
+}
+
+/** One unit through a pass: records before it, the pass's stages, the collector; records, drops and summaries written. */
+async function passUnit(env: TaskEnv, u: number, stages: PassStages, count: (name: string, n?: number) => void, collector?: Awaited<ReturnType<typeof collectUnit>>): Promise<number> {
+  const work = env.plan.workDir;
+  const out = await UnitOutput.open(work, env.phase.name, u);
+  const ctx: StageContext = { seed: env.p.config.seed, log: env.log, workDir: phaseDir(work, env.phase.name), addOutputFile: () => {}, count, drop: (r, reason, detail) => out.drop(r, reason, detail) };
+  const summaries: unknown[] = [];
+  try {
+    for await (const r of stages.run(recordsBefore(env, env.phase.index, u, ctx), ctx, summaries, env.units[u].range)) {
+      await collector?.add(r);
+      await out.add(r);
+    }
+    await collector?.finish();
+    if (summaries.length > 0) await writeAtomic(summaryFile(work, env.phase.name, u), JSON.stringify(summaries) + "\n");
+    await out.commit();
+  } catch (err) {
+    await out.abort();
+    await collector?.abort();
+    throw err;
+  }
+  return out.records;
+}
+
+/** Bytes of the collected files of partition `part` (every keyed file name). */
+async function partitionBytes(collectDir: string, part: number): Promise<number> {
+  const root = join(collectDir, "keyed");
+  let n = 0;
+  for (const name of await readdir(root).catch(() => [] as string[])) n += await dirBytes(join(root, name, String(part).padStart(5, "0")));
+  return n;
+}
+
+async function dirBytes(dir: string): Promise<number> {
+  let n = 0;
+  for (const e of await readdir(dir, { withFileTypes: true }).catch(() => [])) {
+    const path = join(dir, e.name);
+    if (e.isDirectory()) n += await dirBytes(path);
+    else n += (await stat(path).catch(() => ({ size: 0 }))).size;
+  }
+  return n;
+}
+
+/** What the task's share of phase k reads, in bytes: input units, the unit files before it, or collected material. */
+async function phaseBytes(plan: PhasePlan, units: Unit[], k: number, share: { from: number; to: number }): Promise<number> {
+  const phase = plan.phases[k];
+  const does = phase.does;
+  if (does.kind === "read") return units.slice(share.from, share.to).reduce((a, u) => a + (u.range ? u.range.end - u.range.start : u.size), 0);
+  if (does.kind === "partition") {
+    let n = 0;
+    for (let part = share.from; part < share.to; part++) n += await partitionBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.collect), part);
+    return n;
+  }
+  if (does.kind === "resolve") return dirBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.partition, "shared"));
+  const from = sourceOf(plan, k).from;
+  const range = does.kind === "pass" ? share : { from: 0, to: units.length };
+  let n = 0;
+  for (let u = range.from; u < range.to; u++) n += (await stat(unitsFile(plan.workDir, from.name, u)).catch(() => ({ size: 0 }))).size;
+  return n;
 }

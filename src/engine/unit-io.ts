@@ -1,5 +1,5 @@
-// What every task needs: the input files (units) in build order, the plan's key, ids fixed across
-// files, and reading / writing one unit's records between phases.
+// What every task needs: the units of work in build order, the plan's key, numbering fixed across
+// files and parts, and reading / writing one unit's records between phases.
 import { open, stat } from "node:fs/promises";
 import { compressionOf } from "../sources/open.js";
 import { join } from "node:path";
@@ -9,13 +9,14 @@ import type { SourceConfig } from "../pipeline/config.js";
 import { toolVersion } from "../output/manifest.js";
 import { BuildCache } from "../cache/build-cache.js";
 import { dropEvent, eventRecord, readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
+import { KeyedDirs, keyedApplier } from "../stages/keyed.js";
+import type { PhaseMeter } from "./progress.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { copiesFor } from "./weights.js";
 import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { Phase, PhasePlan } from "./plan.js";
 import { AtomicStream, unitName, type TaskDone } from "./workdir.js";
 import { crashPoint } from "../lib/crash-point.js";
-import { repeatedLines } from "./lines-phase.js";
 
 export interface Unit {
   u: number;
@@ -101,128 +102,131 @@ export interface TaskEnv {
   done: Map<string, TaskDone[]>;
   log: Logger;
   threads: number;
+  meter: PhaseMeter;
 }
 
 /**
- * Default ids count rows across a source's files (`<source>:<n>`): the read phase numbers rows per
- * file, and every later reader adds the rows of the source's earlier files, known once read is done.
+ * Where the read phase's numbering of a unit is fixed, once, as its records leave the read phase:
+ * a part of a file numbers rows (`seq`) from 0 and lines from 1, so the rows and lines of the file's
+ * earlier parts are added; default ids (`<source>:<n>`) count rows across a source's units.
  */
-const fixers = new WeakMap<TaskEnv, (u: number, r: { id: string; seq: number }) => void>();
-const offsets = new WeakMap<TaskEnv, Int32Array>();
+export interface UnitFix {
+  /** Rows of the source's earlier units (for default ids). */
+  ids: number;
+  /** Rows and physical lines of the file's earlier parts. */
+  rows: number;
+  lines: number;
+}
 
-export function idFixer(env: TaskEnv): (u: number, r: { id: string; seq: number }) => void {
-  let f = fixers.get(env);
-  if (!f) fixers.set(env, (f = makeIdFixer(env)));
+const fixes = new WeakMap<TaskEnv, UnitFix[]>();
+
+export function unitFixes(env: TaskEnv): UnitFix[] {
+  let f = fixes.get(env);
+  if (!f) fixes.set(env, (f = makeFixes(env)));
   return f;
 }
 
-function makeIdFixer(env: TaskEnv): (u: number, r: { id: string; seq: number }) => void {
-  const rows = new Map<number, number>();
-  for (const d of env.done.get("read") ?? []) for (const [u, f] of Object.entries(d.units)) rows.set(Number(u), f.rows ?? 0);
-  const offset = new Int32Array(env.units.length);
+function makeFixes(env: TaskEnv): UnitFix[] {
+  const facts = new Map<number, TaskDone["units"][string]>();
+  for (const d of env.done.get("read") ?? []) for (const [u, f] of Object.entries(d.units)) facts.set(Number(u), f);
   const bySource = new Map<string, number>();
+  const out: UnitFix[] = [];
   for (const unit of env.units) {
-    const before = bySource.get(unit.source.name) ?? 0;
-    offset[unit.u] = before;
-    bySource.set(unit.source.name, before + (rows.get(unit.u) ?? 0));
+    const ids = bySource.get(unit.source.name) ?? 0;
+    bySource.set(unit.source.name, ids + (facts.get(unit.u)?.rows ?? 0));
+    const later = unit.range !== undefined && unit.range.start > 0 && unit.u > 0;
+    const prev = out[unit.u - 1];
+    const before = facts.get(unit.u - 1);
+    out.push({ ids, rows: later ? prev.rows + (before?.rows ?? 0) : 0, lines: later ? prev.lines + (before?.lines ?? 0) : 0 });
   }
-  return (u, r) => {
-    const unit = env.units[u];
-    if (unit.source.id === undefined) r.id = `${unit.source.name}:${offset[u] + r.seq + 1}`;
-  };
+  return out;
 }
 
-/**
- * A part of a file numbers its lines from 1: later readers add the lines of the file's earlier
- * parts (known from the read phase's markers). Returns the offset per unit.
- */
-export function lineOffsets(env: TaskEnv): Int32Array {
-  let o = offsets.get(env);
-  if (!o) offsets.set(env, (o = makeLineOffsets(env)));
-  return o;
-}
-
-function makeLineOffsets(env: TaskEnv): Int32Array {
-  const lines = new Map<number, number>();
-  for (const d of env.done.get("read") ?? []) for (const [u, f] of Object.entries(d.units)) if (f.lines !== undefined) lines.set(Number(u), f.lines);
-  const offset = new Int32Array(env.units.length);
-  for (const unit of env.units) {
-    if (!unit.range || unit.range.start === 0 || unit.u === 0) continue;
-    offset[unit.u] = offset[unit.u - 1] + (lines.get(unit.u - 1) ?? 0);
-  }
-  return offset;
-}
-
-/** A decision of exact-dups or clusters about one row: drop it (reason, detail) or tag its cluster. */
-export interface Decision {
-  i: number;
-  drop?: { reason: string; detail?: Record<string, unknown> };
-  cluster?: string;
+/** Fixes a record (or a drop) read from the read phase's file of unit u: its row, line and default id. */
+export function fixFromRead(env: TaskEnv, u: number, r: { id: string; seq: number; origin: { line: number } }): void {
+  const f = unitFixes(env)[u];
+  if (env.units[u].source.id === undefined) r.id = `${env.units[u].source.name}:${f.ids + r.seq + 1}`;
+  r.seq += f.rows;
+  r.origin.line += f.lines;
 }
 
 export const unitsFile = (work: string, phase: string, u: number) => join(work, phase, "units", `${unitName(u)}.jsonl`);
 export const dropsFile = (work: string, phase: string, u: number) => join(work, phase, "drops", `${unitName(u)}.jsonl`);
-/** Per file: the summaries of a pass's stages with `gather`, a JSON array by entry. */
+/** Per unit: the summaries of a pass's stages of form `unit`, a JSON array by entry. */
 export const summaryFile = (work: string, phase: string, u: number) => join(work, phase, "summaries", `${unitName(u)}.json`);
-export const decisionsFile = (work: string, phase: string, u: number, part?: number) =>
-  part === undefined ? join(work, phase, "decisions", `${unitName(u)}.jsonl`) : join(work, phase, "decisions", String(part).padStart(5, "0"), `${unitName(u)}.jsonl`);
 
 const materializes = (ph: Phase) => ph.does.kind === "read" || ph.does.kind === "pass" || ph.does.kind === "whole";
 
-/** The phase whose unit files hold the records as they stand before phase `k`, and the decisions made since. */
-export function sourceOf(plan: PhasePlan, k: number): { from: Phase; decisions: Phase[] } {
+/** The phase whose unit files hold the records as they stand before phase `k`, and the keyed stages whose decisions came since. */
+export function sourceOf(plan: PhasePlan, k: number): { from: Phase; keyed: number[] } {
   let m = k - 1;
   while (!materializes(plan.phases[m])) m--;
-  return { from: plan.phases[m], decisions: plan.phases.slice(m + 1, k).filter((ph) => ph.does.kind === "exact" || ph.does.kind === "clusters" || ph.does.kind === "lines") };
+  const keyed: number[] = [];
+  for (const ph of plan.phases.slice(m + 1, k)) if (ph.does.kind === "partition") keyed.push(ph.does.keyed);
+  return { from: plan.phases[m], keyed };
 }
 
-/** A phase's decisions about unit u: exact-dups writes one file per partition, clusters one per file. */
-async function loadDecisions(env: TaskEnv, phase: Phase, u: number): Promise<Map<number, Decision>> {
-  const m = new Map<number, Decision>();
-  const paths = phase.does.kind === "exact" ? Array.from({ length: env.plan.tasks }, (_, p) => decisionsFile(env.plan.workDir, phase.name, u, p)) : [decisionsFile(env.plan.workDir, phase.name, u)];
-  for (const path of paths) for await (const d of readEvents(path) as AsyncIterable<unknown> as AsyncIterable<Decision>) m.set(d.i, d);
-  return m;
+/** The files of keyed stage `k` (its index in the pipeline's stages). */
+export function keyedDirs(env: TaskEnv, k: number): KeyedDirs {
+  const steps = env.plan.keyed.get(k)!;
+  const work = env.plan.workDir;
+  return new KeyedDirs(join(work, steps.collect), join(work, steps.partition), steps.resolve ? join(work, steps.resolve) : undefined, env.units.length, env.plan.tasks);
+}
+
+/** What a keyed step may use: the seed, the pipeline's directory, counters and the log. */
+export function stepContext(env: TaskEnv, count: StageContext["count"]) {
+  return { seed: env.p.config.seed, baseDir: env.p.baseDir, log: env.log, count };
+}
+
+type UnitApplier = (r: DocRecord, ctx: StageContext) => DocRecord | undefined;
+const appliers = new WeakMap<TaskEnv, Map<number, Promise<(u: number) => Promise<UnitApplier>>>>();
+
+/** Prepared once per task: every unit's reader applies the same shared results. */
+function applierOf(env: TaskEnv, k: number, count: StageContext["count"]): Promise<(u: number) => Promise<UnitApplier>> {
+  let m = appliers.get(env);
+  if (!m) appliers.set(env, (m = new Map()));
+  let a = m.get(k);
+  if (!a) {
+    const steps = env.plan.keyed.get(k)!;
+    m.set(k, (a = keyedApplier(steps.form, steps.entry.options, keyedDirs(env, k), stepContext(env, count))));
+  }
+  return a;
 }
 
 /**
- * The records of unit `u` as they reach phase `k`: ids fixed, and the decisions since the last
- * unit files applied (drops reported through `drop`). Straight after the read phase, mixture
- * weights of 0 (records subsampled away) are applied here too, since they need the final id.
+ * The records of unit `u` as they reach phase `k`: numbering fixed (after the read phase), mixture
+ * weights of 0 applied (they need the final id), then the decisions of the keyed steps since the
+ * last unit files, in pipeline order; drops are reported through `ctx.drop`.
  */
-export async function* recordsBefore(env: TaskEnv, k: number, u: number, drop: StageContext["drop"], count: StageContext["count"]): AsyncGenerator<DocRecord> {
-  const { from, decisions } = sourceOf(env.plan, k);
-  const fix = idFixer(env);
-  const lines = decisions.find((d) => d.does.kind === "lines");
-  const strip = lines ? await repeatedLines(env, lines) : undefined;
-  const maps = await Promise.all(decisions.filter((d) => d !== lines).map((d) => loadDecisions(env, d, u)));
-  const unit = env.units[u];
-  const weight = unit.source.weight;
-  const lineOffset = from.does.kind === "read" ? lineOffsets(env)[u] : 0;
-  for await (const e of readEvents(unitsFile(env.plan.workDir, from.name, u))) {
+export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: StageContext): AsyncGenerator<DocRecord> {
+  const { from, keyed } = sourceOf(env.plan, k);
+  const apply: UnitApplier[] = [];
+  for (const s of keyed) apply.push(await (await applierOf(env, s, ctx.count))(u));
+  const weight = env.units[u].source.weight;
+  const path = unitsFile(env.plan.workDir, from.name, u);
+  env.meter.reading(path, 0, await fileSize(path));
+  next: for await (const e of readEvents(path)) {
     if (e.k !== "rec") continue;
-    const r = eventRecord(e);
-    fix(u, r);
-    r.origin.line += lineOffset;
-    if (from.does.kind === "read" && weight !== 1 && copiesFor(weight, `${r.source}\u0000${r.id}`, env.p.config.seed) === 0) {
-      drop(r, "subsampled", { weight });
-      continue;
-    }
-    let dropped = false;
-    for (const m of maps) {
-      const d = m.get(r.seq);
-      if (!d) continue;
-      if (d.drop) {
-        drop(r, d.drop.reason, d.drop.detail);
-        dropped = true;
-        break;
+    let r: DocRecord | undefined = eventRecord(e);
+    if (from.does.kind === "read") {
+      fixFromRead(env, u, r);
+      if (weight !== 1 && copiesFor(weight, `${r.source}\u0000${r.id}`, env.p.config.seed) === 0) {
+        ctx.drop(r, "subsampled", { weight });
+        continue;
       }
-      if (d.cluster !== undefined) r.cluster = d.cluster;
     }
-    if (dropped) continue;
-    // Steps follow each other with a pass between them, so a lines decision is the only one here when present.
-    if (strip && !strip(r, drop, count)) continue;
-    yield r;
+    for (const a of apply) {
+      r = a(r!, ctx);
+      if (!r) continue next;
+    }
+    env.meter.records();
+    yield r!;
   }
+  env.meter.bytes(await fileSize(path));
+}
+
+async function fileSize(path: string): Promise<number> {
+  return (await stat(path).catch(() => ({ size: 0 }))).size;
 }
 
 /** One unit's output of a phase: its records and the drops the phase made, each file complete or absent. */

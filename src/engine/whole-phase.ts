@@ -1,28 +1,44 @@
-// A whole-stream phase (one task): stages that need every record in one instance read all input
-// files' records in order; their output goes back out per file. Drops are held per file until the
-// end, since a two-pass stage drops records of early files after reading late ones.
+// A whole-stream phase (one task): stages of form `whole` read every unit's records in order in one
+// instance; their output goes back out per unit. A record's unit is found from its file and its
+// row (`seq`, fixed file-wide after the read phase), so every part of a file gets its own records
+// back. Drops are held per unit until the end, since a two-pass stage drops records of early units
+// after reading late ones.
 import { mkdir } from "node:fs/promises";
 import { join } from "node:path";
 import { STAGES } from "../stages/index.js";
-import { createTokenize, type TokenizeOptions } from "../stages/tokenize.js";
 import type { StageEntry } from "../pipeline/config.js";
 import { SiftpackError } from "../errors.js";
 import { dropEvent } from "../cache/record-events.js";
 import type { DocRecord, StageContext } from "../types.js";
-import { dropsFile, recordsBefore, UnitOutput, type TaskEnv } from "./unit-io.js";
+import { dropsFile, recordsBefore, unitFixes, UnitOutput, type TaskEnv } from "./unit-io.js";
 import { writeAtomic } from "./workdir.js";
+import { crashPoint } from "../lib/crash-point.js";
+
+/** Finds a record's unit from (source, file, row): each file's units with the first row of each. */
+function unitFinder(env: TaskEnv): (r: DocRecord) => number {
+  const byFile = new Map<string, { u: number; firstRow: number }[]>();
+  const fixes = unitFixes(env);
+  for (const unit of env.units) {
+    const key = `${unit.source.name}\u0000${unit.path}`;
+    let l = byFile.get(key);
+    if (!l) byFile.set(key, (l = []));
+    l.push({ u: unit.u, firstRow: fixes[unit.u].rows });
+  }
+  return (r) => {
+    const l = byFile.get(`${r.source}\u0000${r.origin.file}`);
+    if (!l) throw new SiftpackError("SP_STAGE", `a stage produced record "${r.id}" of ${r.origin.file}, which is no input of source ${r.source}`);
+    let k = l.length - 1;
+    while (k > 0 && l[k].firstRow > r.seq) k--;
+    return l[k].u;
+  };
+}
 
 export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (name: string, n?: number) => void): Promise<{ files: string[]; records: Map<number, number> }> {
   const work = env.plan.workDir;
   const name = env.phase.name;
   const filesDir = join(work, name, "files");
   await mkdir(filesDir, { recursive: true });
-  const unitByFile = new Map(env.units.map((u) => [`${u.source.name}\u0000${u.path}`, u.u]));
-  const unitOf = (r: DocRecord) => {
-    const u = unitByFile.get(`${r.source}\u0000${r.origin.file}`);
-    if (u === undefined) throw new SiftpackError("SP_STAGE", `a stage produced record "${r.id}" of ${r.origin.file}, which is no input of source ${r.source}`);
-    return u;
-  };
+  const unitOf = unitFinder(env);
   const drops = new Map<number, string[]>();
   const files: string[] = [];
   const ctx: StageContext = {
@@ -39,14 +55,11 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
     },
   };
   async function* all(): AsyncGenerator<DocRecord> {
-    for (const unit of env.units) yield* recordsBefore(env, env.phase.index, unit.u, ctx.drop, count);
+    for (const unit of env.units) yield* recordsBefore(env, env.phase.index, unit.u, ctx);
   }
   let stream: AsyncIterable<DocRecord> = all();
-  for (const e of entries) {
-    if (e.name === "tokenize") stream = createTokenize(e.options as TokenizeOptions, { baseDir: env.p.baseDir, workers: env.threads }).stage(stream, ctx);
-    else stream = (await STAGES[e.name].create(e.options, { baseDir: env.p.baseDir, workers: env.threads }))(stream, ctx);
-  }
-  // Records come out in input order; each file's output is opened when its first record arrives.
+  for (const e of entries) stream = (await STAGES[e.name].create(e.options, { baseDir: env.p.baseDir, workers: env.threads }))(stream, ctx);
+  // Records come out in input order; each unit's output is opened when its first record arrives.
   const records = new Map<number, number>();
   let current: { u: number; out: UnitOutput } | undefined;
   let next = 0;
@@ -71,6 +84,7 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
         current = { u, out: await UnitOutput.open(work, name, u) };
         next = u + 1;
       }
+      crashPoint("whole");
       await current.out.add(r);
     }
     await openUpTo(env.units.length);
@@ -78,7 +92,7 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
     await current?.out.abort();
     throw err;
   }
-  // The per-file outputs opened a drops file each; the drops gathered here replace them.
+  // The per-unit outputs opened a drops file each; the drops gathered here replace them.
   for (const unit of env.units) await writeAtomic(dropsFile(work, name, unit.u), (drops.get(unit.u) ?? []).join(""));
   return { files, records };
 }

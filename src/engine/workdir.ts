@@ -6,12 +6,10 @@
 //   <work>/<phase>/task-<i>.started.json  when it began, on which host, which process
 //   <work>/<phase>/task-<i>.failed.json   the error, when it failed (not written when killed)
 //   <work>/logs/<phase>-<i>.log           the task's log lines (JSON)
-import { createWriteStream, type WriteStream } from "node:fs";
-import { copyFile, mkdir, readdir, readFile, rename, rm, writeFile } from "node:fs/promises";
-import { once } from "node:events";
-import { randomBytes } from "node:crypto";
+import { readdir, readFile, rm } from "node:fs/promises";
+import { writeAtomic } from "../lib/work-files.js";
 import { hostname } from "node:os";
-import { dirname, join } from "node:path";
+import { join } from "node:path";
 import { SiftpackError } from "../errors.js";
 import type { Phase, PhasePlan } from "./plan.js";
 import type { CacheReport } from "../cache/build-cache.js";
@@ -33,66 +31,11 @@ export interface TaskDone {
   seconds: number;
 }
 
+export { AtomicStream, copyAtomic, writeAtomic } from "../lib/work-files.js";
 export const unitName = (u: number) => String(u).padStart(6, "0");
 export const phaseDir = (work: string, phase: string) => join(work, phase);
 const marker = (work: string, phase: string, i: number, what: "done" | "started" | "failed") => join(work, phase, `task-${i}.${what}.json`);
 export const logPath = (work: string, phase: string, i: number) => join(work, "logs", `${phase}-${i}.log`);
-
-// Not output/atomic.ts's fixed `.tmp` name: a scheduler may run the same task twice at once (a
-// retry while the first attempt still runs), and each attempt needs a temporary of its own.
-const tmpName = (path: string) => `${path}.tmp-${randomBytes(4).toString("hex")}`;
-
-/** Writes a whole file under a temporary name and renames it into place. */
-export async function writeAtomic(path: string, data: string | Uint8Array): Promise<void> {
-  await mkdir(dirname(path), { recursive: true });
-  const tmp = tmpName(path);
-  await writeFile(tmp, data);
-  await rename(tmp, path);
-}
-
-/** Copies a file into place under a temporary name first. */
-export async function copyAtomic(from: string, to: string): Promise<void> {
-  await mkdir(dirname(to), { recursive: true });
-  const tmp = tmpName(to);
-  await copyFile(from, tmp);
-  await rename(tmp, to);
-}
-
-/** A file written as a stream, renamed into place by `commit`; `abort` removes the temporary. */
-export class AtomicStream {
-  readonly out: WriteStream;
-  private readonly tmp: string;
-  private failure: Error | undefined;
-
-  private constructor(private readonly path: string) {
-    this.tmp = tmpName(path);
-    this.out = createWriteStream(this.tmp, { highWaterMark: 1 << 20 });
-    this.out.on("error", (e) => (this.failure ??= e));
-  }
-
-  static async open(path: string): Promise<AtomicStream> {
-    await mkdir(dirname(path), { recursive: true });
-    return new AtomicStream(path);
-  }
-
-  /** Queues data; awaits only when the buffer is full. */
-  async write(data: string | Uint8Array): Promise<void> {
-    if (this.failure) throw this.failure;
-    if (!this.out.write(data)) await once(this.out, "drain");
-  }
-
-  async commit(): Promise<void> {
-    this.out.end();
-    await once(this.out, "close");
-    if (this.failure) throw this.failure;
-    await rename(this.tmp, this.path);
-  }
-
-  async abort(): Promise<void> {
-    this.out.destroy();
-    await rm(this.tmp, { force: true });
-  }
-}
 
 export async function readDone(work: string, phase: string, i: number): Promise<TaskDone | undefined> {
   try {

@@ -1,6 +1,9 @@
-// Deliberate crashes for the resume tests: SIFTPACK_CRASH_AT="records:120" kills the process with
-// SIGKILL when the 120th record reaches the packer, "write:3" in the middle of the third output
-// file written. Unset (always, outside those tests) it costs one comparison.
+// Deliberate crashes for the resume tests: SIFTPACK_CRASH_AT="NAME:N" kills the process with SIGKILL
+// the N-th time point NAME is passed. Points: read (a batch of the read phase written), unit-records
+// (a record written by a pass or whole phase), partition (a keyed partition step starts), resolve
+// (a resolve step starts), whole (a record leaves a whole-stream phase), records (a record reaches
+// the packer in assemble), write (between the first and the rest of an output file's parts).
+// Unset (always, outside those tests) it costs one comparison.
 const at = process.env.SIFTPACK_CRASH_AT;
 const counts = new Map<string, number>();
 

@@ -12,8 +12,6 @@ import type { SplitStats, WrittenFile } from "./shard-writer.js";
 import type { LedgerCounts } from "./ledger.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { Encoder } from "../tokenizer/index.js";
-import type { TokenizeOptions } from "../stages/tokenize.js";
-import type { PackOptions } from "../stages/pack.js";
 
 export const FORMAT = "siftpack/1";
 
@@ -67,8 +65,12 @@ export interface ManifestInput {
   pipeline: LoadedPipeline;
   inputs: Manifest["inputs"];
   encoder: Encoder;
-  tokenize: TokenizeOptions;
-  pack: PackOptions;
+  /** Documents start with BOS / end with EOS. */
+  bos: boolean;
+  eos: boolean;
+  /** Block length and packing strategy. */
+  length: number;
+  strategy: string;
   tokenDtype: Dtype;
   segmentDtype: Dtype;
   splits: Record<string, SplitStats>;
@@ -102,11 +104,11 @@ export async function writeManifest(dir: string, m: ManifestInput): Promise<Mani
       special_ids: m.encoder.specialTokens,
       eos_id: m.encoder.eosId,
       pad_id: m.encoder.eosId,
-      bos: m.tokenize.bos,
-      eos: m.tokenize.eos,
+      bos: m.bos,
+      eos: m.eos,
     },
-    length: m.pack.length,
-    strategy: m.pack.strategy,
+    length: m.length,
+    strategy: m.strategy,
     dtype: m.tokenDtype,
     segments_dtype: m.segmentDtype,
     splits: m.splits,

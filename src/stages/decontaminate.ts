@@ -117,14 +117,17 @@ export default defineStage({
       else writeReport(o, [summary], ctx);
     };
   },
-  async gather(summaries, o, ctx) {
-    const list = summaries as DecontaminateSummary[];
-    // Without any input file no instance ran: the report still names what the build was checked against.
-    if (list.length === 0) {
-      const set = await loadProtected(o.against, ctx.baseDir, o.ngram, o.form, "decontaminate");
-      list.push({ checked: 0, matches: [], files: set.files, distinct_ngrams: set.grams.size });
-    }
-    writeReport(o, list, ctx);
+  form: {
+    kind: "unit",
+    async gather(summaries, o, ctx) {
+      const list = summaries as DecontaminateSummary[];
+      // Without any input file no instance ran: the report still names what the build was checked against.
+      if (list.length === 0) {
+        const set = await loadProtected(o.against, ctx.baseDir, o.ngram, o.form, "decontaminate");
+        list.push({ checked: 0, matches: [], files: set.files, distinct_ngrams: set.grams.size });
+      }
+      writeReport(o, list, ctx);
+    },
   },
   explain(o) {
     return { words: `${o.form === "none" ? "" : o.form + ", "}format characters removed, lower-cased, runs of letters, marks and digits`, checks: "records whose split is train (or unset)" };

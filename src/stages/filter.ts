@@ -16,7 +16,7 @@ export function filterReason(text: string, o: LengthBounds & Partial<FilterOptio
 export default defineStage({
   name: "filter",
   summary: "drops records outside word/character bounds or failing quality rules (Gopher set: rules: gopher)",
-  perRecord: true,
+  form: { kind: "record" },
   options: filterOptions,
   create(o: FilterOptions) {
     return async function* filter(input, ctx) {

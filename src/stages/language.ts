@@ -94,7 +94,7 @@ export default defineStage({
   name: "language",
   summary: "identifies the language (CLD3) into meta.language / meta.language_confidence; keeps the listed languages",
   options: languageOptions,
-  perRecord: true,
+  form: { kind: "record" },
   async create(o: LanguageOptions) {
     const id = await identifierFor(o.sample_bytes);
     const keep = new Set(o.keep);

@@ -42,7 +42,7 @@ export function normalizeText(text: string, o: NormalizeOptions): string {
 export default defineStage({
   name: "normalize",
   summary: "Unicode normalization and whitespace/control-character clean-up",
-  perRecord: true,
+  form: { kind: "record" },
   options: normalizeOptions,
   create(o) {
     return async function* normalize(input) {

@@ -84,7 +84,8 @@ export default defineStage({
   name: "pack",
   summary: "fixed-length rows with document segment ids",
   options: packOptions,
-  // The runner drives packing (one packer per split); as a stage it passes records through.
+  // The build's assemble phase drives packing (one packer per split); as a stage it passes records through.
+  form: { kind: "sink" },
   create() {
     return (input) => input;
   },

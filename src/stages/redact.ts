@@ -232,7 +232,7 @@ export const redactOptions: Schema<RedactOptions> = {
 export default defineStage({
   name: "redact",
   summary: "replaces e-mail addresses, phone numbers, IP addresses and Luhn-valid card numbers with <EMAIL>, <PHONE>, <IP>, <CARD>",
-  perRecord: true,
+  form: { kind: "record" },
   options: redactOptions,
   create({ kinds }: RedactOptions) {
     return async function* redact(input, ctx) {

@@ -98,9 +98,9 @@ export function assignSplit(key: string, seed: number, holdout: { val: number; t
 export default defineStage({
   name: "split",
   summary: "assigns train / val / test deterministically",
-  // Not `perRecord`: although each record's split depends on that record alone, the stage counts
-  // documents per split, checks min_docs and tracks clusters across all records. Per file (in a
-  // build's task plan) each instance summarizes its file and `gather` checks the whole.
+  // Not of form `record`: although each record's split depends on that record alone, the stage
+  // counts documents per split, checks min_docs and tracks clusters across all records. Per unit
+  // (in a build's task plan) each instance summarizes its unit and `gather` checks the whole.
   options: splitOptions,
   async create(o, env) {
     await loadHasher();
@@ -126,8 +126,11 @@ export default defineStage({
       else checkSplits([summary], o, ctx);
     };
   },
-  gather(summaries, o, ctx) {
-    checkSplits(summaries as SplitSummary[], o, ctx);
+  form: {
+    kind: "unit",
+    gather(summaries, o, ctx) {
+      checkSplits(summaries as SplitSummary[], o, ctx);
+    },
   },
   explain(o) {
     return { key: o.by === undefined ? "near-duplicate cluster when marked, else source and id" : `meta field "${o.by}"; without it, near-duplicate cluster when marked, else source and id` };

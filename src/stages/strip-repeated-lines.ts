@@ -1,23 +1,19 @@
-// strip_repeated_lines: removes lines that occur in at least `min_docs` records (boilerplate), in two passes.
+// strip_repeated_lines: removes lines that occur in at least `min_docs` records (boilerplate), as a keyed step.
 //
-// Pass 1 reads every record, counts in how many records each distinct line occurs (by a 53-bit
-// slice of its XXH64) and spills the records as JSON lines to a temporary file in the build
-// directory. Pass 2 reads them back, removes the counted lines and passes the records on; a
-// record left with no text is dropped. Memory holds the line counts, not the records.
+// Each unit counts in how many of its records each distinct line occurs (by a 53-bit slice of its
+// XXH64) and writes the counts into the partition of the line's key; a partition step sums them over
+// all units and shares the keys found in at least `min_docs` records; the next reader of the records
+// removes those lines, and drops a record left with no text.
 //
-// The counts live in a map of at most `max_lines` entries. When it is full, every line seen in
+// A unit's counts live in a map of at most `max_lines` entries. When it is full, every line seen in
 // only one record so far is forgotten (most lines of a corpus are unique, so this frees most of
 // the map); if that frees less than a quarter of it, new lines are no longer admitted. Counts
 // can therefore only be too low, never too high: a line is removed only if it really occurred
 // in at least `min_docs` records (barring a 53-bit hash collision), while some boilerplate may
 // survive when the budget is too small. The manifest reports the pruning (stage_counts).
-import { createReadStream, createWriteStream } from "node:fs";
-import { rm } from "node:fs/promises";
-import { once } from "node:events";
-import { join } from "node:path";
-import { createInterface } from "node:readline";
-import { randomBytes } from "node:crypto";
+import { availableParallelism } from "node:os";
 import { defineStage } from "./stage.js";
+import { keyedStage, type KeyedForm } from "./keyed.js";
 import { field, num, obj, type Infer } from "../pipeline/schema.js";
 import { loadHasher, xxh64String } from "../lib/hash.js";
 import { SiftpackError } from "../errors.js";
@@ -120,65 +116,85 @@ export function stripLines(text: string, counts: Pick<LineCounts, "count">, minD
   return { text: out.join("\n"), removed };
 }
 
-/** The fields written to the spill file: the whole record (tokens do not exist yet before tokenize). */
-function serialize(r: DocRecord): string {
-  if (r.tokens) throw new SiftpackError("SP_PIPELINE_KEY", `"strip_repeated_lines" must come before "tokenize"`);
-  return JSON.stringify(r) + "\n";
-}
+/** The form: counts per unit by line-key partition, sums per partition, stripping where the records are read next. */
+export const stripRepeatedLinesForm: KeyedForm<StripRepeatedLinesOptions> = {
+  kind: "keyed",
+  steps: { partition: "lines" },
+  async collectors(o, env) {
+    await loadHasher();
+    return {
+      async unit(_u, out) {
+        const counts = new LineCounts(o.max_lines, o.min_chars);
+        return {
+          add(r) {
+            if (r.tokens) throw new SiftpackError("SP_PIPELINE_KEY", `"strip_repeated_lines" must come before "tokenize"`);
+            counts.addRecord(r.text);
+          },
+          async finish() {
+            // (key, records) pairs as float64 (keys are 53-bit), one file per partition.
+            const lists: number[][] = Array.from({ length: out.partitions }, () => []);
+            for (const [key, n] of counts.entries()) lists[key % out.partitions].push(key, n);
+            for (let p = 0; p < out.partitions; p++) if (lists[p].length) await out.part("counts.bin", p).write(new Uint8Array(Float64Array.from(lists[p]).buffer));
+            if (counts.prunes > 0) env.count("strip_repeated_lines:budget_prunes", counts.prunes);
+            if (counts.closed) env.log.warn({ max_lines: o.max_lines }, "strip_repeated_lines: line budget full; lines first seen later in an input file were not counted");
+          },
+        };
+      },
+      async close() {},
+    };
+  },
+  async partition(o, p, files, out, ctx) {
+    const sums = new Map<number, number>();
+    for (let u = 0; u < files.units; u++) {
+      const raw = await files.read("counts.bin", u, p);
+      const w = new Float64Array(raw.buffer.slice(raw.byteOffset, raw.byteOffset + raw.byteLength));
+      for (let x = 0; x < w.length; x += 2) sums.set(w[x], (sums.get(w[x]) ?? 0) + w[x + 1]);
+    }
+    const keys: number[] = [];
+    for (const [k, n] of sums) if (n >= o.min_docs) keys.push(k);
+    keys.sort((a, b) => a - b);
+    await out.share("repeated.bin", new Uint8Array(Float64Array.from(keys).buffer));
+    ctx.count("strip_repeated_lines:distinct_lines", sums.size);
+    // Raised where the records are stripped; present (as 0) even when no line repeats.
+    ctx.count("strip_repeated_lines:lines_removed", 0);
+    ctx.count("strip_repeated_lines:records_changed", 0);
+    ctx.log.debug({ partition: p, distinct_lines: sums.size, repeated_lines: keys.length }, "repeated lines found");
+  },
+  async applier(o, files) {
+    await loadHasher();
+    const keys = new Set<number>();
+    for (let p = 0; p < files.partitions; p++) {
+      const raw = await files.shared("repeated.bin", p);
+      for (const k of new Float64Array(raw.buffer.slice(raw.byteOffset, raw.byteOffset + raw.byteLength))) keys.add(k);
+    }
+    const lookup = {
+      count: (line: string) => {
+        const k = lineKey(line, o.min_chars);
+        return k !== undefined && keys.has(k) ? o.min_docs : 0;
+      },
+    };
+    return (r, _d, ctx) => {
+      if (keys.size === 0) return r;
+      const { text, removed } = stripLines(r.text, lookup, o.min_docs);
+      if (removed === 0) return r;
+      ctx.count("strip_repeated_lines:lines_removed", removed);
+      ctx.count("strip_repeated_lines:records_changed");
+      r.text = text;
+      if (text.trim() === "") {
+        ctx.drop(r, "strip_repeated_lines:empty", { lines_removed: removed });
+        return undefined;
+      }
+      return r;
+    };
+  },
+};
 
 export default defineStage({
   name: "strip_repeated_lines",
-  summary: "removes lines that occur in at least min_docs records (two passes; records spilled to a temporary file)",
+  summary: "removes lines that occur in at least min_docs records (counted per input unit, summed per partition of lines)",
   options: stripRepeatedLinesOptions,
-  create(o: StripRepeatedLinesOptions) {
-    return async function* stripRepeatedLines(input, ctx) {
-      await loadHasher();
-      const counts = new LineCounts(o.max_lines, o.min_chars);
-      const spill = join(ctx.workDir, `.strip-repeated-lines-${randomBytes(6).toString("hex")}.jsonl`);
-      const out = createWriteStream(spill);
-      try {
-        // Pass 1: count and spill.
-        const failed = new Promise<never>((_, reject) => out.once("error", reject));
-        failed.catch(() => {});
-        let records = 0;
-        for await (const r of input) {
-          counts.addRecord(r.text);
-          records++;
-          if (!out.write(serialize(r))) await Promise.race([once(out, "drain"), failed]);
-        }
-        out.end();
-        await Promise.race([once(out, "close"), failed]);
-        ctx.log.debug({ records, lines: counts.size, prunes: counts.prunes }, "strip_repeated_lines: lines counted");
-        ctx.count("strip_repeated_lines:distinct_lines", counts.size);
-        if (counts.prunes > 0) ctx.count("strip_repeated_lines:budget_prunes", counts.prunes);
-        if (counts.closed) ctx.log.warn({ max_lines: o.max_lines }, "strip_repeated_lines: line budget full; lines first seen later were not counted");
-
-        // Pass 2: read back in order, strip, pass on.
-        let linesRemoved = 0;
-        let changed = 0;
-        const reader = createInterface({ input: createReadStream(spill, { encoding: "utf8" }), crlfDelay: Infinity });
-        try {
-          for await (const line of reader) {
-            if (line === "") continue;
-            const r = JSON.parse(line) as DocRecord;
-            const { text, removed } = stripLines(r.text, counts, o.min_docs);
-            if (removed > 0) {
-              linesRemoved += removed;
-              changed++;
-              r.text = text;
-            }
-            if (removed > 0 && text.trim() === "") ctx.drop(r, "strip_repeated_lines:empty", { lines_removed: removed });
-            else yield r;
-          }
-        } finally {
-          reader.close();
-        }
-        ctx.count("strip_repeated_lines:lines_removed", linesRemoved);
-        ctx.count("strip_repeated_lines:records_changed", changed);
-      } finally {
-        out.destroy();
-        await rm(spill, { force: true });
-      }
-    };
+  form: stripRepeatedLinesForm,
+  create(o: StripRepeatedLinesOptions, env) {
+    return keyedStage(stripRepeatedLinesForm, o, env?.workers ?? availableParallelism());
   },
 });

@@ -119,9 +119,11 @@ export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stag
 export default defineStage({
   name: "tokenize",
   summary: "byte-level BPE token ids",
-  // Per record except with `train`, which sees the whole stream: the run must not hand a
-  // training tokenize stage to the worker pool (the stage refuses to run without a workDir).
-  perRecord: true,
+  // Per record (ids depend on the text alone, so earlier ids of an unchanged text can be reused)
+  // except with `train`, which must see the whole stream before it encodes anything.
+  form: (o) => (o.train !== undefined ? { kind: "whole" } : { kind: "record", encodes: true }),
+  // A tokenizer file is named by a hash of its content, so editing it invalidates cached results.
+  identity: (o, baseDir) => (o.train !== undefined ? "trained" : encoderFor(o, baseDir).name),
   options: tokenizeOptions as Schema<TokenizeOptions>,
   create(o, env) {
     return createTokenize(o, env).stage;

@@ -18,8 +18,9 @@ export interface StageRun {
   files: string[];
   /** Lines of clusters.jsonl, parsed (empty when the stage wrote none). */
   clusters: any[];
-  /** What the stage logged at info level. */
+  /** What the stage logged at info level, and at debug level. */
   logged: any[];
+  debugged: any[];
   /** The stage's named counters (ctx.count). */
   counts: Record<string, number>;
 }
@@ -46,11 +47,12 @@ export async function runStage(def: DedupDefinition, raw: unknown, records: DocR
   const files: string[] = [];
   const quiet = () => undefined;
   const logged: any[] = [];
+  const debugged: any[] = [];
   const counts: Record<string, number> = {};
   const ctx: StageContext = {
     seed,
     drop: (record, reason, detail) => drops.push({ record, reason, detail }),
-    log: { info: (o) => logged.push(o), warn: quiet, error: quiet, debug: quiet },
+    log: { info: (o) => logged.push(o), warn: quiet, error: quiet, debug: (o) => debugged.push(o) },
     workDir,
     addOutputFile: (p) => files.push(p),
     count: (name, n = 1) => (counts[name] = (counts[name] ?? 0) + n),
@@ -68,7 +70,7 @@ export async function runStage(def: DedupDefinition, raw: unknown, records: DocR
         .filter(Boolean)
         .map((l) => JSON.parse(l))
     : [];
-  return { kept, drops, workDir, files, clusters, logged, counts };
+  return { kept, drops, workDir, files, clusters, logged, debugged, counts };
 }
 
 /**

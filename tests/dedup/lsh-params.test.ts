@@ -38,7 +38,7 @@ describe("choosing bands × rows", () => {
 
   it("explains the choice for plan, with the candidate probability at 0.5, 0.7, 0.8, 0.9 and threshold + 0.05", () => {
     const e = explainBands(defaults) as any;
-    expect(e).toMatchObject({ passes: 2, bands: 14, rows: 9 });
+    expect(e).toMatchObject({ steps: "collect per unit, buckets per partition, clusters once", bands: 14, rows: 9 });
     expect(Object.keys(e.candidate_probability)).toEqual(["0.5", "0.7", "0.8", "0.85", "0.9"]);
     expect(e.candidate_probability["0.8"]).toBeCloseTo(candidateProbability(0.8, 14, 9), 4);
     expect(e.candidate_probability["0.85"]).toBeGreaterThanOrEqual(0.95);

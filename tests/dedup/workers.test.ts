@@ -24,7 +24,7 @@ describe("worker threads", () => {
     const runs = [];
     for (const workers of [1, 2, 3]) {
       const run = await runStage(def, { method: "minhash", workers }, records);
-      expect(run.logged.find((l) => l.method === "minhash").signing_threads).toBe(workers);
+      expect(run.debugged.find((l) => l.step === "sign").signing_threads).toBe(workers);
       runs.push(summary(run));
     }
     const inThread = summary(await runStage(dedupSource, { method: "minhash", workers: 4 }, records));

@@ -15,15 +15,32 @@ beforeAll(() => {
 });
 
 describe("resume after SIGKILL", () => {
-  // records:N — when the N-th record reaches the packer; write:N — between the header and the
-  // body of the N-th output file written (a shard half-written in the staging directory).
-  for (const at of ["records:40", "records:300", "write:2", "write:7"]) {
-    it(`killed at ${at}, then run again: identical to a clean build`, () => {
+  // A crash point and the phase it kills the build in (its phases before it finished, it did not):
+  // read:N — after the N-th batch of the read phase; unit-records:N — when a pass writes its N-th
+  // record (pass-2 first); partition:N — as the N-th partition step starts (exact-dups is the
+  // first, buckets the second); records:N — when the N-th record reaches the packer (assemble);
+  // write:N — between the header and the body of the N-th output file written (a shard
+  // half-written in the staging directory).
+  const cases: [string, string][] = [
+    ["read:3", "read"],
+    ["unit-records:100", "pass-2"],
+    ["partition:2", "buckets"],
+    ["records:40", "assemble"],
+    ["records:300", "assemble"],
+    ["write:2", "assemble"],
+    ["write:7", "assemble"],
+  ];
+  for (const [at, phase] of cases) {
+    it(`killed at ${at} (in ${phase}), then run again: identical to a clean build`, () => {
       const dir = demoCopy();
       const pipeline = join(dir, "pipelines/demo.yaml");
       const killed = siftpack(["run", pipeline], { env: { SIFTPACK_CRASH_AT: at } });
       expect(killed.signal).toBe("SIGKILL");
       expect(existsSync(join(dir, "build/demo/manifest.json"))).toBe(false);
+      // The kill left the work directory: the phase named was under way and not finished.
+      const work = join(dir, "build/.demo.run");
+      expect(existsSync(join(work, phase, "task-0.started.json")), `${phase} started`).toBe(true);
+      expect(existsSync(join(work, phase, "task-0.done.json")), `${phase} not finished`).toBe(false);
       const again = siftpack(["run", pipeline, "--json"]);
       expect(again.code).toBe(0);
       const report = JSON.parse(again.stdout).cache;

@@ -6,6 +6,14 @@ import { join } from "node:path";
 import decontaminate, { decontaminateOptions } from "../../src/stages/decontaminate.js";
 import { loadHasher } from "../../src/lib/hash.js";
 import type { DocRecord, StageContext } from "../../src/types.js";
+import { formOf, type StageDefinition, type GatherContext } from "../../src/stages/stage.js";
+
+/** The `gather` step of a stage of form `unit`. */
+function gatherOf<O>(def: StageDefinition<O>, o: O): (summaries: unknown[], o: O, ctx: GatherContext) => void | Promise<void> {
+  const f = formOf(def, o);
+  if (f.kind !== "unit") throw new Error(`${def.name} is not of form unit`);
+  return f.gather;
+}
 
 beforeAll(loadHasher);
 
@@ -145,7 +153,7 @@ describe("decontaminate", () => {
         for await (const _ of stage(from(), ctx));
       }
       expect(files).toEqual([]);
-      await decontaminate.gather!(summaries, o, { seed: 0, baseDir: base, log, count, workDir, addOutputFile: (f) => files.push(f) });
+      await gatherOf(decontaminate, o)(summaries, o, { seed: 0, baseDir: base, log, count, workDir, addOutputFile: (f) => files.push(f) });
       expect(files).toEqual(whole.files);
       expect(counts).toEqual(whole.counts);
       expect(readFileSync(join(workDir, files[0]), "utf8")).toBe(readFileSync(join(whole.workDir, whole.files[0]), "utf8"));

@@ -4,6 +4,14 @@ import fc from "fast-check";
 import split, { splitOptions } from "../../src/stages/split.js";
 import { loadHasher } from "../../src/lib/hash.js";
 import type { DocRecord, StageContext } from "../../src/types.js";
+import { formOf, type StageDefinition, type GatherContext } from "../../src/stages/stage.js";
+
+/** The `gather` step of a stage of form `unit`. */
+function gatherOf<O>(def: StageDefinition<O>, o: O): (summaries: unknown[], o: O, ctx: GatherContext) => void | Promise<void> {
+  const f = formOf(def, o);
+  if (f.kind !== "unit") throw new Error(`${def.name} is not of form unit`);
+  return f.gather;
+}
 
 beforeAll(loadHasher);
 
@@ -34,7 +42,7 @@ async function runSplitPerFile(records: DocRecord[], options: unknown, cuts: num
     const ctx: StageContext = { seed, drop: () => {}, log, workDir: "/nonexistent", addOutputFile() {}, count, summarize: (v) => summaries.push(v) };
     for await (const r of stage(file(), ctx)) out.push(r);
   }
-  await split.gather!(summaries, o, { seed, baseDir: ".", log, count, workDir: "/nonexistent", addOutputFile() {} });
+  await gatherOf(split, o)(summaries, o, { seed, baseDir: ".", log, count, workDir: "/nonexistent", addOutputFile() {} });
   return { out, warnings, counts };
 }
 

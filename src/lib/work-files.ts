@@ -1,0 +1,64 @@
+// Files that appear under their final name only when complete, with a temporary name of their own
+// per writer: the build engine's work files and a keyed stage's files are written this way.
+import { createWriteStream, type WriteStream } from "node:fs";
+import { copyFile, mkdir, rename, rm, writeFile } from "node:fs/promises";
+import { once } from "node:events";
+import { randomBytes } from "node:crypto";
+import { dirname } from "node:path";
+
+// Not output/atomic.ts's fixed `.tmp` name: a scheduler may run the same task twice at once (a
+// retry while the first attempt still runs), and each attempt needs a temporary of its own.
+const tmpName = (path: string) => `${path}.tmp-${randomBytes(4).toString("hex")}`;
+
+/** Writes a whole file under a temporary name and renames it into place. */
+export async function writeAtomic(path: string, data: string | Uint8Array): Promise<void> {
+  await mkdir(dirname(path), { recursive: true });
+  const tmp = tmpName(path);
+  await writeFile(tmp, data);
+  await rename(tmp, path);
+}
+
+/** Copies a file into place under a temporary name first. */
+export async function copyAtomic(from: string, to: string): Promise<void> {
+  await mkdir(dirname(to), { recursive: true });
+  const tmp = tmpName(to);
+  await copyFile(from, tmp);
+  await rename(tmp, to);
+}
+
+/** A file written as a stream, renamed into place by `commit`; `abort` removes the temporary. */
+export class AtomicStream {
+  readonly out: WriteStream;
+  private readonly tmp: string;
+  private failure: Error | undefined;
+
+  private constructor(private readonly path: string) {
+    this.tmp = tmpName(path);
+    this.out = createWriteStream(this.tmp, { highWaterMark: 1 << 20 });
+    this.out.on("error", (e) => (this.failure ??= e));
+  }
+
+  static async open(path: string): Promise<AtomicStream> {
+    await mkdir(dirname(path), { recursive: true });
+    return new AtomicStream(path);
+  }
+
+  /** Queues data; awaits only when the buffer is full. */
+  async write(data: string | Uint8Array): Promise<void> {
+    if (this.failure) throw this.failure;
+    if (!this.out.write(data)) await once(this.out, "drain");
+  }
+
+  async commit(): Promise<void> {
+    this.out.end();
+    await once(this.out, "close");
+    if (this.failure) throw this.failure;
+    await rename(this.tmp, this.path);
+  }
+
+  async abort(): Promise<void> {
+    this.out.destroy();
+    await rm(this.tmp, { force: true });
+  }
+}
+
