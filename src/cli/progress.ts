@@ -1,5 +1,5 @@
 // Build progress on stderr, phase by phase: two redrawn lines and a closing table on a terminal; pino JSON lines anywhere else.
-import type { BuildProgress, PhaseTiming } from "../engine/progress.js";
+import type { BuildProgress, PhaseProgress, PhaseTiming } from "../engine/progress.js";
 import type { Logger } from "../types.js";
 import { table } from "./summary.js";
 import { makeLogger } from "./log.js";
@@ -75,16 +75,9 @@ interface Sample {
 }
 
 /** What the display says about the phase at work, measured at one moment; frames and log lines are drawn from it. */
-export interface PhaseFigures {
-  phase: string;
+export interface PhaseFigures extends Omit<PhaseProgress, "index"> {
   /** 1-based, as people count phases. */
   number: number;
-  phases: number;
-  tasksDone: number;
-  tasks: number;
-  bytesDone: number;
-  bytesTotal: number;
-  records: number;
   /** Over the trailing window; undefined until two moments of the phase are far enough apart to tell. */
   bytesPerSecond: number | undefined;
   recordsPerSecond: number | undefined;
