@@ -2,8 +2,10 @@
 // a pipeline with exact and MinHash dedup, line stripping, split, tokenize and pack, built once with
 // `run` and once as the task plan's tasks in separate processes (the tasks of a phase side by side,
 // as array tasks would run). Prints both times and checks that the builds are byte-identical.
+// Every task is timed on its own, which gives the ideal-cluster figure: (sum of all task times) /
+// (sum over phases of the phase's longest task), the speed-up of a cluster with one node per task.
 //
-//   node bench/cluster.js [--mb 50] [--files 12] [--tasks 3] [--parallel 2]
+//   node bench/cluster.js [--mb 50] [--files 12] [--tasks 3] [--parallel 2] [--group-mb 256]
 import { mkdirSync, rmSync, writeFileSync, createReadStream, createWriteStream, readdirSync, readFileSync, existsSync } from "node:fs";
 import { join } from "node:path";
 import { spawn, spawnSync } from "node:child_process";
@@ -19,6 +21,7 @@ const mb = opt("mb", 50);
 const files = opt("files", 12);
 const tasks = opt("tasks", 3);
 const parallel = opt("parallel", 2);
+const groupMb = opt("group-mb", 256);
 const bin = join(root, "bin/siftpack.js");
 const work = join(root, "build/bench/cluster");
 rmSync(work, { recursive: true, force: true });
@@ -55,7 +58,7 @@ stages:
   - strip_repeated_lines: { min_docs: 50, min_chars: 20 }
   - split: { by: group, holdout: { val: 0.05, test: 0.05 } }
   - tokenize: { encoding: gpt2 }
-  - pack: { length: 1024, strategy: best-fit }
+  - pack: { length: 1024, strategy: best-fit, group_mb: ${groupMb} }
 output:
   dir: ../out-${name}
 cluster:
@@ -75,12 +78,18 @@ if (r.status !== 0) throw new Error(`run failed: ${r.stderr}`);
 const localSeconds = (performance.now() - t0) / 1000;
 
 const plan = JSON.parse(spawnSync(process.execPath, [bin, "plan", "tasks/pipeline.yaml", "--tasks", "--json"], { cwd: work, encoding: "utf8" }).stdout);
+const taskTimes = [];
 const task = (phase, index) =>
   new Promise((resolve, reject) => {
+    const started = performance.now();
     const p = spawn(process.execPath, [bin, "task", "tasks/pipeline.yaml", "--phase", phase, "--workers", "1", "--no-cache"], { cwd: work, env: { ...env, SLURM_ARRAY_TASK_ID: String(index) }, stdio: ["ignore", "ignore", "pipe"] });
     let err = "";
     p.stderr.on("data", (d) => (err += d));
-    p.on("close", (code) => (code === 0 ? resolve() : reject(new Error(`${phase} ${index}: ${err}`))));
+    p.on("close", (code) => {
+      taskTimes.push({ phase, index, seconds: (performance.now() - started) / 1000 });
+      if (code === 0) resolve();
+      else reject(new Error(`${phase} ${index}: ${err}`));
+    });
   });
 const phaseSeconds = [];
 t0 = performance.now();
@@ -106,6 +115,13 @@ console.log(`corpus ${mb} MB in ${files} files, ${manifest.records.read} records
 console.log(`siftpack run (one process, all cores):             ${localSeconds.toFixed(1)} s`);
 console.log(`task plan, ${tasks} tasks per phase, ${parallel} at a time, 1 thread each: ${taskSeconds.toFixed(1)} s`);
 for (const [name, t, s] of phaseSeconds) console.log(`  ${name.padEnd(12)} ${String(t).padStart(3)} task(s) ${s.padStart(7)} s`);
+const sum = taskTimes.reduce((a, t) => a + t.seconds, 0);
+const longest = plan.phases.reduce((a, ph) => a + Math.max(...taskTimes.filter((t) => t.phase === ph.name).map((t) => t.seconds)), 0);
+console.log(`ideal cluster (one node per task): ${sum.toFixed(1)} s of task time / ${longest.toFixed(1)} s of longest tasks = ${(sum / longest).toFixed(1)}×`);
+for (const ph of plan.phases) {
+  const t = taskTimes.filter((x) => x.phase === ph.name).map((x) => x.seconds);
+  console.log(`  ${ph.name.padEnd(12)} ${String(t.length).padStart(3)} task(s)  sum ${t.reduce((a, b) => a + b, 0).toFixed(1).padStart(6)} s  longest ${Math.max(...t).toFixed(1).padStart(5)} s`);
+}
 console.log(differ ? "builds DIFFER" : "builds identical, file for file");
-if (existsSync(join(root, "build/bench"))) writeFileSync(join(root, "build/bench/cluster.json"), JSON.stringify({ mb, files, tasks, parallel, localSeconds, taskSeconds, phases: phaseSeconds, identical: !differ }, null, 2) + "\n");
+if (existsSync(join(root, "build/bench"))) writeFileSync(join(root, "build/bench/cluster.json"), JSON.stringify({ mb, files, tasks, parallel, groupMb, localSeconds, taskSeconds, phases: phaseSeconds, idealClusterSpeedup: sum / longest, taskTimes, identical: !differ }, null, 2) + "\n");
 process.exit(differ ? 1 : 0);

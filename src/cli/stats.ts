@@ -3,7 +3,7 @@ import type { CommandModule } from "yargs";
 import { readManifest } from "../output/manifest.js";
 import { statsFigures } from "../report/figures.js";
 import { lengthTable, pct, recordsLine, splitTable, table } from "./summary.js";
-import type { GroupStats } from "../analysis/token-stats.js";
+import type { GroupStats } from "../analysis/token-stats-steps.js";
 
 interface Args {
   dir: string;

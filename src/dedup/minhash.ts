@@ -9,7 +9,6 @@
 // short} per record, and {at, n}: the text's bytes in texts.bin with confirm: exact).
 // Per partition: buckets.bin, entries (band key, band, unit, record j of the unit) as 4 × uint32,
 // partition = band key mod partitions. A partition shares edges.bin, confirmed pairs as uint32 (a, b).
-import { closeSync, openSync, readSync } from "node:fs";
 import { BandBuckets, MAX_DOCUMENTS } from "./buckets.js";
 import { chooseKept, joinBucket } from "./clusters.js";
 import { writeClusters } from "./cluster-file.js";
@@ -22,7 +21,7 @@ import { jaccard, shingleSet, Shingler } from "./shingles.js";
 import { UnionFind } from "./union-find.js";
 import { SiftpackError } from "../errors.js";
 import type { DocRecord } from "../types.js";
-import type { CollectOutput, KeyedFiles, KeyedForm, UnitCollector } from "../stages/keyed.js";
+import { OwnFileReader, type CollectOutput, type KeyedFiles, type KeyedForm, type UnitCollector } from "../stages/keyed.js";
 
 /** Texts per batch sent to a signing thread, and the text size that closes a batch early. */
 const BATCH_DOCS = 256;
@@ -148,41 +147,15 @@ function locate(offset: Float64Array, d: number): { u: number; j: number } {
   return { u: lo, j: d - offset[lo] };
 }
 
-/** Positioned reads of one own file per unit (one descriptor per unit, opened on first use). */
-class OwnFiles {
-  private readonly fds = new Map<number, number>();
-  constructor(
-    private readonly files: KeyedFiles,
-    private readonly name: string,
-  ) {}
-
-  read(u: number, at: number, into: Uint8Array): Uint8Array {
-    let fd = this.fds.get(u);
-    if (fd === undefined) this.fds.set(u, (fd = openSync(this.files.path(this.name, u), "r")));
-    let got = 0;
-    while (got < into.length) {
-      const n = readSync(fd, into, got, into.length - got, at + got);
-      if (n === 0) throw new Error(`dedup: ${this.name} of input ${u} ends early`);
-      got += n;
-    }
-    return into;
-  }
-
-  close(): void {
-    for (const fd of this.fds.values()) closeSync(fd);
-    this.fds.clear();
-  }
-}
-
 /** Signature rows of documents numbered across units. */
 class Signatures {
-  private readonly own: OwnFiles;
+  private readonly own: OwnFileReader;
   constructor(
     files: KeyedFiles,
     private readonly offset: Float64Array,
     readonly k: number,
   ) {
-    this.own = new OwnFiles(files, "sig.bin");
+    this.own = new OwnFileReader(files, "sig.bin");
   }
   row(d: number, into: Uint32Array): Uint32Array {
     const { u, j } = locate(this.offset, d);
@@ -211,7 +184,7 @@ async function loadDocs(files: KeyedFiles, total: number): Promise<{ docs: Doc[]
 /** Exact Jaccard of two documents' shingle sets, from the texts kept by the collectors, with a small cache of sets. */
 function exactJaccard(o: MinhashOptions, seed: number, files: KeyedFiles, docs: Doc[], unitOf: Int32Array): { of(a: number, b: number): number; close(): void } {
   const shingler = new Shingler({ kind: o.shingle, ngram: o.ngram, lowercase: o.lowercase }, seed);
-  const texts = new OwnFiles(files, "texts.bin");
+  const texts = new OwnFileReader(files, "texts.bin");
   const cache = new Map<number, Uint32Array>();
   const set = (d: number) => {
     let s = cache.get(d);

@@ -1,32 +1,38 @@
-// The assemble phase (one task): every input file's fates merged in row order into the ledger, the
-// kept records packed per split into blocks (shuffled where asked), the analyzers run, stage files
-// copied in, the manifest written, and the build published in one rename.
-import { copyFile, readFile } from "node:fs/promises";
-import { join } from "node:path";
+// The assemble phase (one task): the packing groups joined — ledger members and quarantine lines
+// end to end, shards moved in, counts and split statistics summed — the stages' files copied in,
+// the whole-corpus checks of `unit` stages gathered, the analyses' figures read from their
+// partitions, the manifest written, and the build published in one rename. It reads no token.
+import { copyFile, mkdir, open, readFile, rename, rm } from "node:fs/promises";
+import { dirname, join } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { createPacker, type Packer } from "../stages/pack.js";
 import { outputSettings } from "../stages/output-settings.js";
 import { formOf } from "../stages/stage.js";
 import { TRAINED_FILE } from "../tokenizer/index.js";
-import { readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
-import { copiesFor } from "./weights.js";
-import { Ledger } from "../output/ledger.js";
-import { ShardWriter, type Emit } from "../output/shard-writer.js";
+import type { LedgerCounts } from "../output/ledger.js";
+import type { SplitStats, WrittenFile } from "../output/shard-writer.js";
+import type { HistogramBucket } from "../pack/length-histogram.js";
+import { Rng, seedFor } from "../pack/rng.js";
+import { shufflesSplit } from "../stages/pack.js";
 import { prepareStaging, publishStaging } from "../output/output-dir.js";
 import { writeManifest, type Manifest } from "../output/manifest.js";
 import { writeBuildInfo } from "../output/build-info.js";
-import { ANALYZERS, type Analyzer } from "../analysis/analyzer.js";
-import type { DocRecord } from "../types.js";
-import type { QuarantineEntry } from "../sources/source.js";
-import { dropsFile, fixFromRead, unitFixes, recordsBefore, summaryFile, unitsFile, type TaskEnv } from "./unit-io.js";
-import type { StageContext } from "../types.js";
+import { summaryFile, type TaskEnv } from "./unit-io.js";
+import { groupDir, type GroupResult } from "./pack-phase.js";
+import type { AnalysisContext, AnalysisSteps } from "../analysis/steps.js";
+import type { KeyedDirs } from "../stages/keyed.js";
 import { STAGES } from "../stages/index.js";
 import type { TaskDone } from "./workdir.js";
 
-type Fate = { i: number; bad?: QuarantineEntry; drop?: { r: DocRecord; reason: string; detail?: Record<string, unknown> } };
+export interface AssembleInput {
+  /** The pack phase's name and its number of groups. */
+  packPhase: string;
+  groupCount: number;
+  /** The analyses that apply, with their files. */
+  analyses: { steps: AnalysisSteps; ctx: AnalysisContext; dirs: KeyedDirs }[];
+}
 
-export async function assemblePhase(env: TaskEnv): Promise<Manifest> {
+export async function assemblePhase(env: TaskEnv, { packPhase, groupCount, analyses }: AssembleInput): Promise<Manifest> {
   const { p, plan } = env;
   const { config } = p;
   const startedAt = new Date();
@@ -39,7 +45,6 @@ export async function assemblePhase(env: TaskEnv): Promise<Manifest> {
   const inputs: Manifest["inputs"] = env.units.filter((u) => !u.range || u.range.start === 0).map((u) => ({ source: u.source.name, path: u.path, size: facts.get(u.u)!.size!, xxh64: facts.get(u.u)!.xxh64! }));
 
   const staging = await prepareStaging(p.outDir);
-  const ledger = new Ledger(join(staging, "ledger.jsonl.gz"), join(staging, "quarantine.jsonl"));
   const out = outputSettings(config.stages, p.baseDir);
   const packOpts = out.pack;
   const { tokenDtype, segmentDtype } = out;
@@ -77,118 +82,46 @@ export async function assemblePhase(env: TaskEnv): Promise<Manifest> {
     }
   }
 
-  const weights = new Map(config.sources.map((s) => [s.name, s.weight]));
-  const copiesOf = (r: DocRecord) => {
-    const w = weights.get(r.source) ?? 1;
-    return w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed);
-  };
-
-  const analyzers: { key: string; analyzer: Analyzer }[] = [];
-  for (const f of ANALYZERS) {
-    const analyzer = await f.create({ config, workDir: staging, baseDir: p.baseDir, workers: env.threads, log: env.log });
-    if (analyzer) analyzers.push({ key: f.key, analyzer });
-  }
-  const writers = new Map<string, { writer: ShardWriter; packer: Packer }>();
-  const writerFor = (split: string) => {
-    let w = writers.get(split);
-    if (!w) {
-      const writer = new ShardWriter({ outDir: staging, split, length: packOpts.length, shardBlocks: config.output.shard_blocks, tokenDtype, segmentDtype, emit: packOpts.emit as Emit[] });
-      const packer = createPacker(packOpts, out.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split });
-      w = { writer, packer };
-      writers.set(split, w);
-    }
-    return w;
-  };
-
-  const k = env.phase.index;
-  // Explicit ids must be unique across a source's files (each file checked its own while reading).
-  const multiFile = new Set(config.sources.filter((s) => s.id !== undefined && env.units.filter((u) => u.source.name === s.name).length > 1).map((s) => s.name));
-  const seenIds = new Set<string>();
-  try {
-    for (const unit of env.units) {
-      const fates: Fate[] = [];
-      const fix = unitFixes(env)[unit.u];
-      for await (const e of readEvents(unitsFile(work, "read", unit.u))) {
-        if (e.k === "bad") fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
-        else if (e.k === "drop") {
-          const d = dropOf(e);
-          fixFromRead(env, unit.u, d.r);
-          fates.push({ i: d.r.seq, drop: d });
-        }
-      }
-      for (const ph of plan.phases.slice(1, k)) {
-        if (ph.does.kind !== "pass" && ph.does.kind !== "whole") continue;
-        for await (const e of readEvents(dropsFile(work, ph.name, unit.u))) if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
-      }
-      // Drops made while reading (decisions applied now), in row order as the records come.
-      const late: Fate[] = [];
-      const ctx: StageContext = { seed: config.seed, log: env.log, workDir: staging, addOutputFile: () => {}, count, drop: (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }) };
-      const records = recordsBefore(env, k, unit.u, ctx);
-      const unitIds: string[] = [];
-      const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
-        if ("rec" in f || f.drop) {
-          const r = "rec" in f ? f.rec : f.drop!.r;
-          if (multiFile.has(r.source)) {
-            if (seenIds.has(`${r.source}\u0000${r.id}`)) {
-              await ledger.quarantined({ source: r.source, file: r.origin.file, line: r.origin.line, error: `duplicate id "${r.id}" (also in an earlier file of the source)` });
-              return;
-            }
-            unitIds.push(`${r.source}\u0000${r.id}`);
-          }
-          if ("rec" in f) await keep(f.rec);
-          else ledger.dropped(r, f.drop!.reason, f.drop!.detail);
-        } else await ledger.quarantined(f.bad!);
-        await ledger.flush();
-      };
-      const keep = async (r: DocRecord) => {
-        const split = r.split ?? "train";
-        // Repetition serves the training mixture only; held-out text is seen once.
-        const n = split === "train" ? copiesOf(r) : 1;
-        crashPoint("records");
-        ledger.kept(r, n !== 1 ? { copies: n } : {});
-        const { writer, packer } = writerFor(split);
-        for (let c = 0; c < n; c++) packer.add(r.tokens!);
-        for (const a of analyzers) await a.analyzer.add(r);
-        if (writer.pending > 0) await writer.writePending();
-      };
-      fates.sort((a, b) => a.i - b.i);
-      let at = 0;
-      for await (const r of records) {
-        while (at < fates.length && fates[at].i < r.seq) await emit(fates[at++]);
-        while (late.length > 0 && late[0].i < r.seq) await emit(late.shift()!);
-        await emit({ i: r.seq, rec: r });
-      }
-      const rest = [...fates.slice(at), ...late].sort((a, b) => a.i - b.i);
-      for (const f of rest) await emit(f);
-      for (const id of unitIds) seenIds.add(id);
-    }
-    for (const { writer, packer } of writers.values()) {
-      packer.finish();
-      await writer.finish();
-      Object.assign(writer.stats, packer.stats);
-    }
-    await ledger.close();
-  } catch (err) {
-    for (const a of analyzers) await a.analyzer.close?.().catch(() => {});
-    if (err instanceof SiftpackError) throw err;
-    const code = (err as NodeJS.ErrnoException)?.code;
-    if (typeof code === "string" && /^E[A-Z]+$/.test(code)) throw new SiftpackError("SP_OUTPUT", `writing ${staging} failed: ${describeSystemError(err)}`, { cause: err });
-    throw err;
-  }
-
-  const c = ledger.counts;
+  // The groups' results, in group order: counts summed, split statistics merged, shards listed.
+  const groups: GroupResult[] = [];
+  for (let g = 0; g < groupCount; g++) groups.push(JSON.parse(await readFile(join(groupDir(work, packPhase, g), "group.json"), "utf8")) as GroupResult);
+  const c = mergeCounts(groups.map((r) => r.counts));
   if (c.read > 0 && c.quarantined / c.read > config.max_bad_fraction) {
-    for (const a of analyzers) await a.analyzer.close?.().catch(() => {});
+    // The quarantine lines, joined, so the message can point at them.
+    await joinFiles(groups.map((_, g) => join(groupDir(work, packPhase, g), "quarantine.jsonl")), join(staging, "quarantine.jsonl"));
     throw new SiftpackError(
       "SP_BAD_FRACTION",
       `${c.quarantined} of ${c.read} input records (${((100 * c.quarantined) / c.read).toFixed(1)} %) were quarantined, more than max_bad_fraction ${config.max_bad_fraction}; see ${join(staging, "quarantine.jsonl")}`,
     );
   }
+  const splitStats = mergeSplits(groups.map((r) => r.splits), packOpts.length);
+  // A shuffled split lists its shards in a seeded order, so that a trainer reading them in the
+  // manifest's order meets the packing groups interleaved (rows are shuffled within each group).
+  for (const [split, st] of Object.entries(splitStats)) if (shufflesSplit(packOpts.shuffle, split)) seededOrder(st.shards, seedFor(config.seed, `shards:${split}`));
+  const files: WrittenFile[] = [];
+  try {
+    // Gzip members joined end to end are one gzip file (RFC 1952, 2.2): the ledger needs no recompression.
+    await joinFiles(groups.map((_, g) => join(groupDir(work, packPhase, g), "ledger.jsonl.gz")), join(staging, "ledger.jsonl.gz"));
+    await joinFiles(groups.map((_, g) => join(groupDir(work, packPhase, g), "quarantine.jsonl")), join(staging, "quarantine.jsonl"));
+    for (const [g, r] of groups.entries()) {
+      for (const f of r.files) {
+        crashPoint("assemble");
+        await mkdir(dirname(join(staging, f.path)), { recursive: true });
+        await moveFile(join(groupDir(work, packPhase, g), f.path), join(staging, f.path));
+        files.push(f);
+      }
+    }
+  } catch (err) {
+    if (err instanceof SiftpackError) throw err;
+    const code = (err as NodeJS.ErrnoException)?.code;
+    if (typeof code === "string" && /^E[A-Z]+$/.test(code)) throw new SiftpackError("SP_OUTPUT", `writing ${staging} failed: ${describeSystemError(err)}`, { cause: err });
+    throw err;
+  }
   const analysis: Record<string, unknown> = { stage_counts: Object.fromEntries(Object.entries(stageCounts).sort(([a], [b]) => (a < b ? -1 : 1))) };
-  for (const a of analyzers) analysis[a.key] = await a.analyzer.finish();
+  for (const a of analyses) analysis[a.steps.key] = await a.steps.figures(a.ctx, a.dirs, { seed: config.seed, baseDir: p.baseDir, log: env.log, count, tmpDir: staging });
 
   const splitOrder = ["train", "val", "test"];
-  const splits = [...writers.keys()].sort((a, b) => splitOrder.indexOf(a) - splitOrder.indexOf(b));
+  const splits = Object.keys(splitStats).sort((a, b) => splitOrder.indexOf(a) - splitOrder.indexOf(b));
   const encoder = out.encoder(trainedPath ? await readFile(trainedPath, "utf8") : undefined);
   const manifest = await writeManifest(staging, {
     pipeline: p,
@@ -200,9 +133,9 @@ export async function assemblePhase(env: TaskEnv): Promise<Manifest> {
     strategy: packOpts.strategy,
     tokenDtype,
     segmentDtype,
-    splits: Object.fromEntries(splits.map((s) => [s, writers.get(s)!.writer.stats])),
+    splits: Object.fromEntries(splits.map((s) => [s, splitStats[s]])),
     counts: c,
-    files: splits.flatMap((s) => writers.get(s)!.writer.files),
+    files,
     extraFiles: stageFiles,
     analysis,
   });
@@ -212,6 +145,86 @@ export async function assemblePhase(env: TaskEnv): Promise<Manifest> {
   return manifest;
 }
 
-function dropOf(e: Extract<UnitEvent, { k: "drop" }>): { r: DocRecord; reason: string; detail?: Record<string, unknown> } {
-  return { r: { id: e.id, source: e.source, text: "", meta: {}, origin: { file: e.file, line: e.line }, seq: e.i }, reason: e.reason, detail: e.detail };
+/** Fisher–Yates with the seeded generator the row shuffle uses. */
+function seededOrder<T>(list: T[], seed: number): void {
+  const rng = new Rng(seed);
+  for (let n = list.length; n > 1; n--) {
+    const j = rng.below(n);
+    [list[n - 1], list[j]] = [list[j], list[n - 1]];
+  }
+}
+
+/** Appends whole files into one, in order (a byte copy). */
+async function joinFiles(parts: string[], to: string): Promise<void> {
+  const out = await open(to, "w");
+  try {
+    for (const part of parts) {
+      const buf = await readFile(part);
+      await out.write(buf);
+    }
+  } finally {
+    await out.close();
+  }
+}
+
+/** Moves a file (a rename; a copy when the work directory is on another file system). */
+async function moveFile(from: string, to: string): Promise<void> {
+  try {
+    await rename(from, to);
+  } catch (err) {
+    if ((err as NodeJS.ErrnoException).code !== "EXDEV") throw err;
+    await copyFile(from, to);
+    await rm(from, { force: true });
+  }
+}
+
+function mergeCounts(list: LedgerCounts[]): LedgerCounts {
+  const c: LedgerCounts & { tokens: number } = { read: 0, kept: 0, dropped: 0, quarantined: 0, tokens: 0, by_reason: {}, by_source: {}, by_split: {} };
+  const add = (into: Record<string, number>, from: Record<string, number>) => {
+    for (const [k, n] of Object.entries(from)) into[k] = (into[k] ?? 0) + n;
+  };
+  for (const x of list) {
+    c.read += x.read;
+    c.kept += x.kept;
+    c.dropped += x.dropped;
+    c.quarantined += x.quarantined;
+    add(c.by_reason, x.by_reason);
+    add(c.by_split, x.by_split);
+    for (const [s, v] of Object.entries(x.by_source)) add((c.by_source[s] ??= { read: 0, kept: 0, dropped: 0, quarantined: 0, tokens: 0 }) as unknown as Record<string, number>, v as unknown as Record<string, number>);
+  }
+  // Tokens put into the splits (repeats by weight included), summed over the sources (a single ledger left this 0).
+  for (const v of Object.values(c.by_source)) c.tokens += v.tokens;
+  // Keys in order of first appearance, groups in build order: as one ledger over every record would have them.
+  return c;
+}
+
+/** Split statistics of every group summed; the shard lists joined in group order; histograms added bucket by bucket. */
+function mergeSplits(list: Record<string, SplitStats>[], length: number): Record<string, SplitStats> {
+  const out: Record<string, SplitStats> = {};
+  for (const splits of list) {
+    for (const [name, s] of Object.entries(splits)) {
+      const m = (out[name] ??= { documents: 0, blocks: 0, tokens: 0, target_tokens: 0, padding_tokens: 0, padding_fraction: 0, cut_documents: 0, targets_lost_to_cuts: 0, continuation_tokens: 0, length_histogram: [], shards: [] });
+      for (const k of ["documents", "blocks", "tokens", "target_tokens", "padding_tokens", "cut_documents", "targets_lost_to_cuts", "continuation_tokens"] as const) m[k] += s[k];
+      m.length_histogram = addHistograms(m.length_histogram, s.length_histogram);
+      m.shards.push(...s.shards);
+    }
+  }
+  // Rounded so the manifest shows a readable number; the exact counts sit beside it.
+  for (const m of Object.values(out)) m.padding_fraction = m.blocks === 0 ? 0 : Math.round((m.padding_tokens / (m.blocks * length)) * 1e6) / 1e6;
+  return out;
+}
+
+function addHistograms(a: HistogramBucket[], b: HistogramBucket[]): HistogramBucket[] {
+  const byMin = new Map<number, HistogramBucket>();
+  for (const x of [...a, ...b]) {
+    const m = byMin.get(x.min);
+    if (m) m.documents += x.documents;
+    else byMin.set(x.min, { ...x });
+  }
+  if (byMin.size === 0) return [];
+  // Power-of-two buckets from the lowest to the highest, empty ones in between included.
+  const mins = [...byMin.keys()].sort((x, y) => x - y);
+  const outB: HistogramBucket[] = [];
+  for (let k = Math.log2(mins[0]); 2 ** k <= mins[mins.length - 1]; k++) outB.push(byMin.get(2 ** k) ?? { min: 2 ** k, max: 2 ** (k + 1) - 1, documents: 0 });
+  return outB;
 }

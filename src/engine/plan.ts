@@ -9,7 +9,11 @@
 //   <keyed>     per partition of keys: a keyed stage's partition step (its name: exact-dups, buckets, lines, …)
 //   <resolve>   one task: a keyed stage's resolve step, when it has one (clusters)
 //   whole-N     one task: consecutive stages of form `whole`, over every record in order
-//   assemble    one task: ledger, packing (the `sink` stage), shuffle, shards, manifest
+//   ids         per partition of ids (when a source has explicit ids): repeated ids across units
+//   pack        per packing group: ledger, packing (the `sink` stage), shuffle, shards, and the
+//               analyses' collection
+//   analysis    per partition of keys: the analyses' partition steps (overlap between splits)
+//   assemble    one task: joins the groups and the analyses' results, manifest, publish
 import { dirname, basename, join, isAbsolute, resolve } from "node:path";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { StageEntry } from "../pipeline/config.js";
@@ -17,6 +21,9 @@ import { BUILTIN_STAGES, STAGES } from "../stages/index.js";
 import { formOf, type StageForm } from "../stages/stage.js";
 import type { KeyedForm } from "../stages/keyed.js";
 import type { PhaseInfo, TaskPlan } from "./plan-types.js";
+import { uniqueIdsForm } from "./unique-ids.js";
+import { ANALYSES } from "../analysis/registry.js";
+import type { AnalysisSteps } from "../analysis/steps.js";
 
 /** What a phase does. `entries` are stage entries it runs; `keyed` indexes the pipeline's stage list. */
 export type PhaseKind =
@@ -25,6 +32,8 @@ export type PhaseKind =
   | { kind: "partition"; keyed: number }
   | { kind: "resolve"; keyed: number }
   | { kind: "whole"; entries: StageEntry[] }
+  | { kind: "pack" }
+  | { kind: "analysis" }
   | { kind: "assemble" };
 
 export interface Phase extends PhaseInfo {
@@ -47,9 +56,14 @@ export interface PhasePlan extends TaskPlan {
   phases: Phase[];
   /** Tasks of the per-unit and per-partition phases; also the number of key partitions. */
   tasks: number;
-  /** The keyed stages, by their index in the pipeline's stage list. */
+  /** The keyed stages, by their index in the pipeline's stage list (the ids check as -1). */
   keyed: Map<number, KeyedSteps>;
+  /** The analyses that apply to this build (their figures go into the manifest). */
+  analyses: AnalysisSteps[];
 }
+
+/** The index of the engine's own keyed step, the explicit-id check, in `PhasePlan.keyed`. */
+export const IDS_CHECK = -1;
 
 export function workDirOf(p: LoadedPipeline): string {
   const w = p.config.cluster.work_dir;
@@ -80,6 +94,11 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
   const readEntries: StageEntry[] = [];
   while (i < stages.length && readable(stages[i])) readEntries.push(stages[i++]);
   add("read", tasks, true, { kind: "read", entries: readEntries }, "read input files, map fields, run the leading per-record stages");
+  // Explicit ids must be unique across a source's units: collected while reading, checked per partition of ids.
+  if (p.config.sources.some((s) => s.id !== undefined)) {
+    const ph = add("ids", tasks, false, { kind: "partition", keyed: IDS_CHECK }, "explicit ids: the first unit of every id keeps it, later ones are quarantined");
+    keyed.set(IDS_CHECK, { entry: { name: "ids", options: {} } as StageEntry, form: uniqueIdsForm, collect: "read", partition: ph.name });
+  }
   // The open pass: per-unit stages join it until a keyed stage collects there.
   type PassPhase = Phase & { does: { kind: "pass"; entries: StageEntry[]; collect?: number } };
   let pass: PassPhase | undefined;
@@ -107,14 +126,17 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
     add(`whole-${phases.filter((ph) => ph.does.kind === "whole").length + 1}`, 1, false, { kind: "whole", entries: run }, `one stream: ${run.map((r) => r.name).join(", ")}`);
     pass = undefined;
   }
-  add("assemble", 1, false, { kind: "assemble" }, "ledger, packing, shuffle, shards, manifest");
+  add("pack", tasks, false, { kind: "pack" }, "per packing group: ledger, packing, shuffle, shards, the analyses' collection");
+  const analyses = ANALYSES.filter((a) => a.applies({ config: p.config, baseDir: p.baseDir }));
+  if (analyses.length > 0) add("analysis", tasks, false, { kind: "analysis" }, `per partition of keys: ${analyses.map((a) => a.key).join(", ")}`);
+  add("assemble", 1, false, { kind: "assemble" }, "joins the groups: ledger, shards, counts, figures, manifest; publishes");
   for (const ph of phases) {
     if (ph.does.kind !== "pass") continue;
     const { entries, collect } = ph.does;
     const parts = [...(entries.length ? [`per unit: ${entries.map((e) => e.name).join(", ")}`] : []), ...(collect !== undefined ? [`collect for ${stages[collect].name}`] : [])];
     ph.summary = `apply the decisions before; ${parts.join("; ") || "rewrite"}`;
   }
-  return { pipeline: resolve(p.file), workDir: workDirOf(p), outDir: p.outDir, phases, tasks, keyed };
+  return { pipeline: resolve(p.file), workDir: workDirOf(p), outDir: p.outDir, phases, tasks, keyed, analyses };
 }
 
 /** The share of `count` items (units or key partitions) task `index` of `tasks` handles: a contiguous range. */

@@ -4,7 +4,7 @@
 import { appendFileSync, mkdirSync } from "node:fs";
 import { availableParallelism } from "node:os";
 import { dirname, join } from "node:path";
-import { SiftpackError } from "../errors.js";
+import { SiftpackError, describeSystemError } from "../errors.js";
 import { loadHasher } from "../lib/hash.js";
 import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
 import { recordPool } from "../parallel/record-pool.js";
@@ -20,7 +20,14 @@ import { PassStages } from "./pass-phase.js";
 import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
 import { PhaseMeter, type PhaseTiming, type ProgressListener } from "./progress.js";
-import { keyedDirs, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
+import { packGroup, analysisDirs } from "./pack-phase.js";
+import { IDS_CHECK } from "./plan.js";
+import { sourcesToCheck, uniqueIdsForm } from "./unique-ids.js";
+import { outputSettings } from "../stages/output-settings.js";
+import { readEvents } from "../cache/record-events.js";
+import { analysisForm } from "../analysis/registry.js";
+import type { DocRecord } from "../types.js";
+import { keyedDirs, packGroups, type PackGroup, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
 import { clearTemporaries, logPath, markDone, markFailed, markStarted, phaseDir, requireDone, writeAtomic, type TaskDone } from "./workdir.js";
 
 export interface TaskOptions {
@@ -85,12 +92,16 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
 
   const log = teeLogger(opts.log, logPath(work, phase.name, index), phase.name, index);
   const threads = Math.max(1, opts.workers ?? availableParallelism());
-  const share = shareOf(index, phase.tasks, phase.perUnit ? units.length : plan.tasks);
-  const bytesTotal = await phaseBytes(plan, units, k, share);
+  const out = outputSettings(p.config.stages, p.baseDir);
+  const groups = packGroups(units, out.pack.group_mb * 1e6);
+  const items = phase.perUnit ? units.length : phase.does.kind === "pack" ? groups.length : phase.tasks === 1 ? 1 : plan.tasks;
+  const share = shareOf(index, phase.tasks, items);
+  const bytesTotal = await phaseBytes(plan, units, groups, k, share);
   const meter = new PhaseMeter({ phase: phase.name, index: k, phases: plan.phases.length, tasks: opts.finished ? phase.tasks : 1, bytesTotal }, opts.finished ?? [], opts.onProgress);
   const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads, meter };
   await markStarted(work, phase.name, index);
-  await clearTemporaries(phaseDir(work, phase.name), phase.tasks === 1 ? undefined : share);
+  // A pack task removes each of its groups' directories before packing it instead.
+  if (phase.does.kind !== "pack") await clearTemporaries(phaseDir(work, phase.name), phase.tasks === 1 ? undefined : share);
   const counts: Record<string, number> = {};
   const count = (name: string, n = 1) => (counts[name] = (counts[name] ?? 0) + n);
   const unitFacts: TaskDone["units"] = {};
@@ -104,14 +115,19 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     const does = phase.does;
     if (does.kind === "read") {
       const pool = recordPool({ stages: does.entries, baseDir: p.baseDir, seed: p.config.seed }, threads);
+      // The explicit-id check collects the ids of the sources that need it from what was read.
+      const check = sourcesToCheck(units);
+      const ids = plan.keyed.has(IDS_CHECK) && check.size > 0 ? { dirs: keyedDirs(env, IDS_CHECK), collectors: await uniqueIdsForm.collectors({}, { ...stepContext(env, count), threads }) } : undefined;
       try {
         for (let u = share.from; u < share.to; u++) {
           const r = await readUnit(env, u, does.entries, pool, cache);
           for (const [name, n] of Object.entries(r.counts)) count(name, n);
           unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines };
+          if (ids) await collectIds(env, u, check, await collectUnit(ids.dirs, ids.collectors, u));
         }
       } finally {
         await pool.close();
+        await ids?.collectors.close();
       }
     } else if (does.kind === "pass") {
       const steps = does.collect === undefined ? undefined : plan.keyed.get(does.collect)!;
@@ -141,8 +157,42 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const r = await wholePhase(env, does.entries, count);
       files = r.files;
       for (const [u, n] of r.records) unitFacts[u] = { records: n };
-    } else manifest = await assemblePhase(env);
-  } catch (err) {
+    } else if (does.kind === "pack") {
+      const analyses = [];
+      for (const steps of plan.analyses) {
+        const ctx = { config: p.config, baseDir: p.baseDir };
+        analyses.push({ steps, dirs: analysisDirs(env, phase.name, "analysis", steps.key, groups.length), collectors: await steps.collectors(ctx, { ...stepContext(env, count), threads }) });
+      }
+      try {
+        for (let g = share.from; g < share.to; g++) {
+          await packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined });
+        }
+      } finally {
+        for (const a of analyses) await a.collectors.close();
+      }
+    } else if (does.kind === "analysis") {
+      const packPhase = plan.phases.find((ph) => ph.does.kind === "pack")!.name;
+      for (const steps of plan.analyses) {
+        const ctx = { config: p.config, baseDir: p.baseDir };
+        const form = analysisForm(steps, ctx);
+        const dirs = analysisDirs(env, packPhase, phase.name, steps.key, groups.length);
+        for (let part = share.from; part < share.to; part++) {
+          crashPoint("partition");
+          await partitionStep(form, undefined, dirs, part, stepContext(env, count));
+          meter.bytes(await partitionBytes(dirs.collect, part));
+        }
+      }
+    } else {
+      const packPhase = plan.phases.find((ph) => ph.does.kind === "pack")!.name;
+      const analysisPhase = plan.phases.find((ph) => ph.does.kind === "analysis")?.name ?? "analysis";
+      const analyses = plan.analyses.map((steps) => ({ steps, ctx: { config: p.config, baseDir: p.baseDir }, dirs: analysisDirs(env, packPhase, analysisPhase, steps.key, groups.length) }));
+      manifest = await assemblePhase(env, { packPhase, groupCount: groups.length, analyses });
+    }
+  } catch (caught) {
+    // A system error while writing the work directory (a full disk, a folder made read-only) is a
+    // failure of this build, told in one line, not an internal error.
+    const code = (caught as NodeJS.ErrnoException)?.code;
+    const err = !(caught instanceof SiftpackError) && typeof code === "string" && /^E[A-Z]+$/.test(code) ? new SiftpackError("SP_OUTPUT", `phase ${phase.name}: writing ${work} failed: ${describeSystemError(caught)}`, { cause: caught }) : caught;
     await markFailed(work, phase.name, index, (err as Error)?.message ?? String(err)).catch(() => {});
     // Into the task's log only: the caller reports the error itself.
     appendFileSync(logPath(work, phase.name, index), JSON.stringify({ time: new Date().toISOString(), level: "error", phase: phase.name, task: index, error: (err as Error)?.message ?? String(err), msg: "task failed" }) + "\n");
@@ -205,10 +255,28 @@ async function dirBytes(dir: string): Promise<number> {
   return n;
 }
 
+/** Feeds the ids of unit u's records and drops (rows of the unit itself) to the explicit-id check. */
+async function collectIds(env: TaskEnv, u: number, sources: Set<string>, c: Awaited<ReturnType<typeof collectUnit>>): Promise<void> {
+  try {
+    if (sources.has(env.units[u].source.name))
+      for await (const e of readEvents(unitsFile(env.plan.workDir, "read", u))) if (e.k === "rec" || e.k === "drop") await c.add({ id: e.id, source: e.source, seq: e.i } as DocRecord);
+    await c.finish();
+  } catch (err) {
+    await c.abort();
+    throw err;
+  }
+}
+
 /** What the task's share of phase k reads, in bytes: input units, the unit files before it, or collected material. */
-async function phaseBytes(plan: PhasePlan, units: Unit[], k: number, share: { from: number; to: number }): Promise<number> {
+async function phaseBytes(plan: PhasePlan, units: Unit[], groups: PackGroup[], k: number, share: { from: number; to: number }): Promise<number> {
   const phase = plan.phases[k];
   const does = phase.does;
+  if (does.kind === "analysis") {
+    let n = 0;
+    const pack = plan.phases.find((ph) => ph.does.kind === "pack")!.name;
+    for (const a of plan.analyses) for (let part = share.from; part < share.to; part++) n += await partitionBytes(join(plan.workDir, pack, `analysis-${a.key}`), part);
+    return n;
+  }
   if (does.kind === "read") return units.slice(share.from, share.to).reduce((a, u) => a + (u.range ? u.range.end - u.range.start : u.size), 0);
   if (does.kind === "partition") {
     let n = 0;
@@ -217,8 +285,10 @@ async function phaseBytes(plan: PhasePlan, units: Unit[], k: number, share: { fr
   }
   if (does.kind === "resolve") return dirBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.partition, "shared"));
   const from = sourceOf(plan, k).from;
-  const range = does.kind === "pass" ? share : { from: 0, to: units.length };
+  const list = does.kind === "pass" ? range(share.from, share.to) : does.kind === "pack" ? groups.slice(share.from, share.to).flatMap((g) => g.units) : does.kind === "assemble" ? [] : range(0, units.length);
   let n = 0;
-  for (let u = range.from; u < range.to; u++) n += (await stat(unitsFile(plan.workDir, from.name, u)).catch(() => ({ size: 0 }))).size;
+  for (const u of list) n += (await stat(unitsFile(plan.workDir, from.name, u)).catch(() => ({ size: 0 }))).size;
   return n;
 }
+
+const range = (from: number, to: number) => Array.from({ length: to - from }, (_, i) => from + i);

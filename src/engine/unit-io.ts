@@ -162,7 +162,8 @@ export function sourceOf(plan: PhasePlan, k: number): { from: Phase; keyed: numb
   let m = k - 1;
   while (!materializes(plan.phases[m])) m--;
   const keyed: number[] = [];
-  for (const ph of plan.phases.slice(m + 1, k)) if (ph.does.kind === "partition") keyed.push(ph.does.keyed);
+  // The explicit-id check (index -1) is applied by the pack phase itself.
+  for (const ph of plan.phases.slice(m + 1, k)) if (ph.does.kind === "partition" && ph.does.keyed >= 0) keyed.push(ph.does.keyed);
   return { from: plan.phases[m], keyed };
 }
 
@@ -264,3 +265,27 @@ export class UnitOutput {
 }
 
 export type { UnitEvent };
+
+/** A packing group: consecutive units, whole input files only. */
+export interface PackGroup {
+  g: number;
+  units: number[];
+  bytes: number;
+}
+
+/**
+ * Packing groups: consecutive input files in build order, a new group started before the file that
+ * would take the group past `groupBytes` (a larger file is a group of its own). Defined by the files
+ * alone, never by parts or tasks, so the packed bytes do not depend on how the work is cut.
+ */
+export function packGroups(units: Unit[], groupBytes: number): PackGroup[] {
+  const groups: PackGroup[] = [];
+  let cur: PackGroup | undefined;
+  for (const unit of units) {
+    const firstOfFile = !unit.range || unit.range.start === 0;
+    if (firstOfFile && (!cur || (cur.bytes > 0 && cur.bytes + unit.size > groupBytes))) groups.push((cur = { g: groups.length, units: [], bytes: 0 }));
+    cur!.units.push(unit.u);
+    if (firstOfFile) cur!.bytes += unit.size;
+  }
+  return groups;
+}

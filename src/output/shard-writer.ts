@@ -51,6 +51,8 @@ export interface ShardWriterOptions {
   tokenDtype: Dtype;
   segmentDtype: Dtype;
   emit: readonly Emit[];
+  /** Put before every shard's number in its file names (the packing group: "00003-"). */
+  prefix?: string;
 }
 
 export class ShardWriter {
@@ -135,7 +137,7 @@ export class ShardWriter {
     const L = this.o.length;
     const dir = join(this.o.outDir, this.o.split);
     await mkdir(dir, { recursive: true });
-    const stem = String(this.shardIndex++).padStart(6, "0");
+    const stem = `${this.o.prefix ?? ""}${String(this.shardIndex++).padStart(6, "0")}`;
     const n = rows * L;
     const tok = tokens.subarray(0, n);
     const seg = segments.subarray(0, n);

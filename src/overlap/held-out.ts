@@ -1,6 +1,7 @@
 // One held-out split's documents as n-gram slots and text fingerprints, with "seen in train" marks.
 import { bytes, int32s, uint32s } from "../lib/grow.js";
 import { HashMap64 } from "./hash-map64.js";
+import { ngramCounts } from "./figures.js";
 
 /**
  * Memory: 4 bytes per n-gram position and 28–46 bytes per distinct n-gram (the table's 19–37 plus
@@ -104,15 +105,5 @@ export function ngramFigures(b: HeldOutSplit, slotSeen: (slot: number) => boolea
     if (any) sharing++;
     if (textSeen(b.docText.get(d))) exact++;
   }
-  const ngrams = pos.length;
-  return {
-    documents: docs,
-    short_documents: short,
-    exact_duplicates: exact,
-    ngram_documents: sharing,
-    ngram_document_fraction: docs ? sharing / docs : 0,
-    ngrams,
-    ngrams_seen: seen,
-    ngram_fraction: ngrams ? seen / ngrams : 0,
-  };
+  return ngramCounts({ documents: docs, short, exact, sharing, ngrams: pos.length, seen });
 }

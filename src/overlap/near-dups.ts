@@ -4,6 +4,7 @@ import { join } from "node:path";
 import { BatchSigner, type SignerParams } from "../dedup/signer.js";
 import { estimateJaccard } from "../dedup/signature.js";
 import { uint32s, type Grow } from "../lib/grow.js";
+import type { NearDupFigures } from "./figures.js";
 
 /** Texts signed per batch. */
 const BATCH = 256;
@@ -34,12 +35,7 @@ class HeldOutSignatures {
   }
 }
 
-export interface NearDupFigures {
-  /** Pairs (reference document, held-out document) whose estimated Jaccard similarity reaches the threshold. */
-  pairs: number;
-  /** Held-out documents in at least one such pair. */
-  documents: number;
-}
+export type { NearDupFigures } from "./figures.js";
 
 /**
  * Signs every document; held-out signatures and buckets stay in memory, train's (signature + band

@@ -1,6 +1,6 @@
 // Documents and tokens per split and per source: the split counts, each source's fate counts and token statistics.
 import type { Manifest } from "../output/manifest.js";
-import type { GroupStats } from "../analysis/token-stats.js";
+import type { GroupStats } from "../analysis/token-stats-steps.js";
 import { esc, fig, int, pct, table } from "./html.js";
 import { hbars, type BarRow } from "./hbars.js";
 import { sourceClass } from "./palette.js";

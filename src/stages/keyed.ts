@@ -14,7 +14,7 @@
 //   resolve:   <resolve>/shared/<name>, <resolve>/files/<build file>, <resolve>/decisions/<unit>.jsonl
 import { mkdtemp, mkdir, readdir, readFile, rm, stat, copyFile } from "node:fs/promises";
 import { tmpdir } from "node:os";
-import { existsSync } from "node:fs";
+import { closeSync, existsSync, openSync, readSync } from "node:fs";
 import { join } from "node:path";
 import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { Stage } from "./stage.js";
@@ -164,6 +164,33 @@ export class KeyedDirs implements KeyedFiles {
 function absent(err: NodeJS.ErrnoException): Buffer {
   if (err.code === "ENOENT") return Buffer.alloc(0);
   throw err;
+}
+
+/** Positioned reads of one own file per unit (a descriptor per unit, opened on first use): signatures, texts. */
+export class OwnFileReader {
+  private readonly fds = new Map<number, number>();
+  constructor(
+    private readonly files: KeyedFiles,
+    private readonly name: string,
+  ) {}
+
+  /** Fills `into` with the bytes of unit u's file from byte `at`. */
+  read(u: number, at: number, into: Uint8Array): Uint8Array {
+    let fd = this.fds.get(u);
+    if (fd === undefined) this.fds.set(u, (fd = openSync(this.files.path(this.name, u), "r")));
+    let got = 0;
+    while (got < into.length) {
+      const n = readSync(fd, into, got, into.length - got, at + got);
+      if (n === 0) throw new Error(`${this.name} of unit ${u} ends early`);
+      got += n;
+    }
+    return into;
+  }
+
+  close(): void {
+    for (const fd of this.fds.values()) closeSync(fd);
+    this.fds.clear();
+  }
 }
 
 /** Collects one unit: removes what an earlier attempt left for it, then files appear as the collector finishes. */

@@ -39,6 +39,9 @@ export const packOptions = refine(
     // over all rows, so order does not matter, and unshuffled rows are easier to trace back).
     shuffle: field(shuffleSchema, { default: ["train"] }),
     shuffle_window: field(num({ integer: true, min: 1, max: 10_000_000 }), { default: 4096 }),
+    // Input megabytes per packing group: consecutive input files are packed, shuffled and written
+    // together, one task per group; a group ends before the file that would take it past this size.
+    group_mb: field(num({ min: 0.000001, max: 1e9 }), { default: 256 }),
   }),
   (o, path, issues) => {
     if (o.buffer_docs !== undefined && o.strategy !== "best-fit")
@@ -52,14 +55,15 @@ export function shufflesSplit(shuffle: boolean | string[], split: string): boole
   return typeof shuffle === "boolean" ? shuffle : shuffle.includes(split);
 }
 
-/** Where a packer is used: the pipeline seed and the split, which together seed its row shuffle. */
+/** Where a packer is used: the pipeline seed, the split and the packing group, which together seed its row shuffle. */
 export interface PackContext {
   seed: number;
   split: string;
+  group?: number;
 }
 
 export function createPacker(o: PackOptions, padId: number, sink: RowSink, ctx: PackContext): Packer {
-  const shuffle = shufflesSplit(o.shuffle, ctx.split) ? new RowShuffle(o.length, o.shuffle_window, seedFor(ctx.seed, `shuffle:${ctx.split}`), sink) : undefined;
+  const shuffle = shufflesSplit(o.shuffle, ctx.split) ? new RowShuffle(o.length, o.shuffle_window, seedFor(ctx.seed, ctx.group === undefined ? `shuffle:${ctx.split}` : `shuffle:${ctx.split}:${ctx.group}`), sink) : undefined;
   const out = shuffle?.sink ?? sink;
   let packer: Packer;
   switch (o.strategy) {

@@ -1,6 +1,9 @@
-// Token statistics per split and source, on a hand-made example.
+// Token statistics per split and source, on a hand-made example: the build's steps (cut into two
+// packing groups, two partitions) and the one-pass definition give the figures worked out by hand.
 import { describe, expect, it } from "vitest";
-import { tokenStatsAnalyzer } from "../../src/analysis/token-stats.js";
+import { tokenStatsAnalyzer } from "./token-stats-one-pass.js";
+import { tokenStatsSteps } from "../../src/analysis/token-stats-steps.js";
+import { contextOf, runSteps } from "./steps-harness.js";
 import type { DocRecord } from "../../src/types.js";
 
 const rec = (source: string, split: string, text: string, n: number): DocRecord => ({
@@ -16,12 +19,17 @@ const rec = (source: string, split: string, text: string, n: number): DocRecord 
 
 describe("token statistics", () => {
   it("counts documents, tokens, targets, bytes per token and nearest-rank percentiles", async () => {
-    const a = (await tokenStatsAnalyzer.create({} as never))!;
+    const a = (await tokenStatsAnalyzer.create())!;
     // train: lengths 1..10 from source s (10 bytes each), one of length 100 from source t (50 bytes, "é" is 2 bytes).
-    for (let i = 1; i <= 10; i++) a.add(rec("s", "train", "x".repeat(10), i));
-    a.add(rec("t", "train", "é".repeat(25), 100));
-    a.add(rec("s", "val", "abcd", 2));
-    const out = (await a.finish()) as any;
+    const records: DocRecord[] = [];
+    for (let i = 1; i <= 10; i++) records.push(rec("s", "train", "x".repeat(10), i));
+    records.push(rec("t", "train", "é".repeat(25), 100));
+    records.push(rec("s", "val", "abcd", 2));
+    for (const r of records) a.add(r);
+    const onePass = (await a.finish()) as any;
+    const ctx = contextOf({ seed: 1, ngram: 13, nearDuplicates: false, permutations: 16, threshold: 0.8, vocab: 300 });
+    const out = (await runSteps(tokenStatsSteps, ctx, records, [5], 2)).figures as any;
+    expect(out).toEqual(onePass);
     expect(Object.keys(out)).toEqual(["train", "val"]);
     expect(out.train.all).toMatchObject({ documents: 11, tokens: 155, target_tokens: 144, bytes: 150 });
     expect(out.train.all.bytes_per_token).toBeCloseTo(150 / 155);

@@ -17,18 +17,20 @@ beforeAll(() => {
 describe("resume after SIGKILL", () => {
   // A crash point and the phase it kills the build in (its phases before it finished, it did not):
   // read:N — after the N-th batch of the read phase; unit-records:N — when a pass writes its N-th
-  // record (pass-2 first); partition:N — as the N-th partition step starts (exact-dups is the
-  // first, buckets the second); records:N — when the N-th record reaches the packer (assemble);
+  // record (pass-2 first); partition:N — as the N-th partition step starts (ids, exact-dups,
+  // buckets: the third); records:N — when the N-th record reaches the packer (pack);
   // write:N — between the header and the body of the N-th output file written (a shard
-  // half-written in the staging directory).
+  // half-written in a packing group's directory); assemble:N — as the N-th shard file is moved into
+  // the staging directory.
   const cases: [string, string][] = [
     ["read:3", "read"],
     ["unit-records:100", "pass-2"],
-    ["partition:2", "buckets"],
-    ["records:40", "assemble"],
-    ["records:300", "assemble"],
-    ["write:2", "assemble"],
-    ["write:7", "assemble"],
+    ["partition:3", "buckets"],
+    ["records:40", "pack"],
+    ["records:300", "pack"],
+    ["write:2", "pack"],
+    ["write:7", "pack"],
+    ["assemble:3", "assemble"],
   ];
   for (const [at, phase] of cases) {
     it(`killed at ${at} (in ${phase}), then run again: identical to a clean build`, () => {

@@ -1,20 +1,10 @@
-// Token statistics per split and per source: documents, tokens, target tokens, text bytes, bytes
-// per token and length percentiles, under "token_stats" in manifest.json.
-import type { AnalyzerFactory } from "./analyzer.js";
-import type { DocRecord } from "../types.js";
-import { uint32s } from "../lib/grow.js";
+// The one-pass definition of the token statistics (every kept record through one instance): the
+// reference the build's step-wise token statistics (src/analysis/token-stats-steps.ts) are checked against.
+import type { DocRecord } from "../../src/types.js";
+import { uint32s } from "../../src/lib/grow.js";
+import type { GroupStats } from "../../src/analysis/token-stats-steps.js";
 
-export interface GroupStats {
-  documents: number;
-  tokens: number;
-  /** Tokens whose prediction counts in the loss if the document is not cut: all but the first. */
-  target_tokens: number;
-  bytes: number;
-  bytes_per_token: number;
-  mean_tokens: number;
-  /** Document length in tokens at these percentiles (nearest rank). */
-  percentiles: { p50: number; p90: number; p99: number; max: number };
-}
+// The shape now lives beside the step-wise statistics; re-exported for existing importers.
 
 /** Lengths of one group, in a growable typed array (4 bytes a document). */
 class Lengths {
@@ -44,9 +34,9 @@ class Lengths {
   }
 }
 
-export const tokenStatsAnalyzer: AnalyzerFactory = {
+export const tokenStatsAnalyzer = {
   key: "token_stats",
-  create() {
+  create(_ctx?: unknown) {
     const groups = new Map<string, Map<string, Lengths>>();
     const get = (split: string, source: string) => {
       let bySource = groups.get(split);

@@ -1,0 +1,156 @@
+// The pack phase, one task per share of packing groups: every unit's fates merged in row order into
+// the group's ledger (one gzip member) and quarantine lines, the kept records packed per split into
+// blocks (best-fit looks ahead within the group; rows shuffled within the group), the group's shards
+// written, and the analyses' collectors fed. Everything lands in <work>/pack/groups/<g>/; assemble
+// joins the groups without reading a token.
+import { mkdir, rm, writeFile } from "node:fs/promises";
+import { join } from "node:path";
+import { createPacker, type Packer } from "../stages/pack.js";
+import type { OutputSettings } from "../stages/output-settings.js";
+import { collectUnit, KeyedDirs, type Collectors } from "../stages/keyed.js";
+import { readEvents, type UnitEvent } from "../cache/record-events.js";
+import { crashPoint } from "../lib/crash-point.js";
+import { copiesFor } from "./weights.js";
+import { Ledger, type LedgerCounts } from "../output/ledger.js";
+import { ShardWriter, type Emit, type SplitStats, type WrittenFile } from "../output/shard-writer.js";
+import type { AnalysisSteps } from "../analysis/steps.js";
+import type { DocRecord, StageContext } from "../types.js";
+import type { QuarantineEntry } from "../sources/source.js";
+import { dropsFile, fixFromRead, keyedDirs, recordsBefore, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
+import { unitName } from "./workdir.js";
+
+/** What one group leaves for assemble (group.json). */
+export interface GroupResult {
+  counts: LedgerCounts;
+  splits: Record<string, SplitStats>;
+  /** Shard files, paths relative to the group's directory (= their paths in the build). */
+  files: WrittenFile[];
+}
+
+export const groupDir = (work: string, phase: string, g: number) => join(work, phase, "groups", String(g).padStart(5, "0"));
+
+/** The analyses' files: collected per group under the pack phase, joined per partition in the analysis phase. */
+export function analysisDirs(env: TaskEnv, pack: string, analysis: string, key: string, groups: number): KeyedDirs {
+  const work = env.plan.workDir;
+  return new KeyedDirs(join(work, pack, `analysis-${key}`), join(work, analysis, key), undefined, groups, env.plan.tasks);
+}
+
+type Fate = { i: number; bad?: QuarantineEntry; drop?: { r: DocRecord; reason: string; detail?: Record<string, unknown> } };
+
+export interface PackGroupOptions {
+  out: OutputSettings;
+  count: StageContext["count"];
+  /** Analyses that apply, with their collectors (made once per task). */
+  analyses: { steps: AnalysisSteps; dirs: KeyedDirs; collectors: Collectors }[];
+  /** The keyed stage index of the ids check, when the plan has one. */
+  ids?: number;
+}
+
+/** Packs one group into its directory (removed first: a rerun starts clean). */
+export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOptions): Promise<GroupResult> {
+  const { p, plan } = env;
+  const { config } = p;
+  const work = plan.workDir;
+  const dir = groupDir(work, env.phase.name, group.g);
+  await rm(dir, { recursive: true, force: true });
+  await mkdir(dir, { recursive: true });
+  const ledger = new Ledger(join(dir, "ledger.jsonl.gz"), join(dir, "quarantine.jsonl"));
+  const pack = o.out.pack;
+  const prefix = `${String(group.g).padStart(5, "0")}-`;
+  const writers = new Map<string, { writer: ShardWriter; packer: Packer }>();
+  const writerFor = (split: string) => {
+    let w = writers.get(split);
+    if (!w) {
+      const writer = new ShardWriter({ outDir: dir, split, length: pack.length, shardBlocks: config.output.shard_blocks, tokenDtype: o.out.tokenDtype, segmentDtype: o.out.segmentDtype, emit: pack.emit as Emit[], prefix });
+      const packer = createPacker(pack, o.out.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split, group: group.g });
+      writers.set(split, (w = { writer, packer }));
+    }
+    return w;
+  };
+  const weights = new Map(config.sources.map((s) => [s.name, s.weight]));
+  const copiesOf = (r: DocRecord) => {
+    const w = weights.get(r.source) ?? 1;
+    return w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed);
+  };
+  const idsDirs = o.ids === undefined ? undefined : keyedDirs(env, o.ids);
+  const feeds: Awaited<ReturnType<typeof collectUnit>>[] = [];
+  for (const a of o.analyses) feeds.push(await collectUnit(a.dirs, a.collectors, group.g));
+  const k = env.phase.index;
+  try {
+    for (const u of group.units) {
+      const fix = unitFixes(env)[u];
+      const repeated = idsDirs ? await idsDirs.decisions(u) : undefined;
+      const fates: Fate[] = [];
+      for await (const e of readEvents(unitsFile(work, "read", u))) {
+        if (e.k === "bad") fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
+        else if (e.k === "drop") {
+          const d = dropOf(e);
+          fixFromRead(env, u, d.r);
+          fates.push({ i: d.r.seq, drop: d });
+        }
+      }
+      for (const ph of plan.phases.slice(1, k)) {
+        if (ph.does.kind !== "pass" && ph.does.kind !== "whole") continue;
+        for await (const e of readEvents(dropsFile(work, ph.name, u))) if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
+      }
+      // Drops made while reading (decisions applied now), in row order as the records come.
+      const late: Fate[] = [];
+      const ctx: StageContext = { seed: config.seed, log: env.log, workDir: dir, addOutputFile: () => {}, count: o.count, drop: (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }) };
+      const records = recordsBefore(env, k, u, ctx);
+      const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
+        if ("rec" in f || f.drop) {
+          const r = "rec" in f ? f.rec : f.drop!.r;
+          if (repeated?.has(r.seq - fix.rows)) {
+            await ledger.quarantined({ source: r.source, file: r.origin.file, line: r.origin.line, error: `duplicate id "${r.id}" (also in an earlier file of the source)` });
+            return;
+          }
+          if ("rec" in f) await keep(f.rec);
+          else ledger.dropped(r, f.drop!.reason, f.drop!.detail);
+        } else await ledger.quarantined(f.bad!);
+        await ledger.flush();
+      };
+      const keep = async (r: DocRecord) => {
+        const split = r.split ?? "train";
+        // Repetition serves the training mixture only; held-out text is seen once.
+        const n = split === "train" ? copiesOf(r) : 1;
+        crashPoint("records");
+        ledger.kept(r, n !== 1 ? { copies: n } : {});
+        const { writer, packer } = writerFor(split);
+        for (let c = 0; c < n; c++) packer.add(r.tokens!);
+        for (const f of feeds) await f.add(r);
+        if (writer.pending > 0) await writer.writePending();
+      };
+      fates.sort((a, b) => a.i - b.i);
+      let at = 0;
+      for await (const r of records) {
+        while (at < fates.length && fates[at].i < r.seq) await emit(fates[at++]);
+        while (late.length > 0 && late[0].i < r.seq) await emit(late.shift()!);
+        await emit({ i: r.seq, rec: r });
+      }
+      const rest = [...fates.slice(at), ...late].sort((a, b) => a.i - b.i);
+      for (const f of rest) await emit(f);
+    }
+    for (const { writer, packer } of writers.values()) {
+      packer.finish();
+      await writer.finish();
+      Object.assign(writer.stats, packer.stats);
+    }
+    await ledger.close();
+    for (const f of feeds) await f.finish();
+  } catch (err) {
+    for (const f of feeds) await f.abort();
+    throw err;
+  }
+  const result: GroupResult = {
+    counts: ledger.counts,
+    splits: Object.fromEntries([...writers].map(([s, w]) => [s, w.writer.stats])),
+    files: [...writers.values()].flatMap((w) => w.writer.files),
+  };
+  await writeFile(join(dir, "group.json"), JSON.stringify(result) + "\n");
+  env.log.debug({ group: group.g, units: group.units.length, unit: unitName(group.units[0] ?? 0) }, "group packed");
+  return result;
+}
+
+function dropOf(e: Extract<UnitEvent, { k: "drop" }>): { r: DocRecord; reason: string; detail?: Record<string, unknown> } {
+  return { r: { id: e.id, source: e.source, text: "", meta: {}, origin: { file: e.file, line: e.line }, seq: e.i }, reason: e.reason, detail: e.detail };
+}
