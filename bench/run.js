@@ -119,6 +119,10 @@ results.pipeline = {
 rows.push([`pipeline, 1 worker (${largeInputMb.toFixed(0)} MB)`, (largeInputMb / p1.sec).toFixed(1), "", `${p1.sec.toFixed(1)} s`]);
 rows.push([`pipeline, ${cores} workers`, (largeInputMb / pN.sec).toFixed(1), "", `${(p1.sec / pN.sec).toFixed(2)}× one worker`]);
 rows.push(["tokenize-only pipeline, 1 worker", (largeInputMb / tok1.sec).toFixed(1), "", `full pipeline at ${((100 * tok1.sec) / p1.sec).toFixed(0)} % of it`]);
+// The encoder's own speed in this process (gpt2, above) against the build that does little else.
+const encoderMbS = results.tokenizer.gpt2.ours_mb_s;
+results.pipeline.tokenize_only_vs_encoder = largeInputMb / tok1.sec / encoderMbS;
+rows.push(["tokenize-only build vs the encoder in-process", "", "", `${((100 * largeInputMb) / tok1.sec / encoderMbS).toFixed(0)} % of ${encoderMbS.toFixed(1)} MB/s`]);
 
 const smallRun = run(pipelineFile("full-small", small, full), cores);
 results.memory = { small_mb: smallMb, small_peak_rss_mb: smallRun.rss_mb, large_mb: largeMb, large_peak_rss_mb: pN.rss_mb, flatness: pN.rss_mb / smallRun.rss_mb };
@@ -137,7 +141,9 @@ if (!flag("skip-minhash")) {
 
 if (!flag("skip-cluster")) {
   console.log("\nCluster tasks against run (bench/cluster.js):");
-  const r = spawnSync(process.execPath, [join(root, "bench/cluster.js"), "--mb", String(smallMb)], { encoding: "utf8", stdio: ["ignore", "pipe", "inherit"] });
+  // 16 tasks per phase on the large corpus in 32 files and 16 packing groups: the ideal-cluster figure.
+  const args = ["--mb", String(largeMb), "--files", "32", "--tasks", "16", "--parallel", String(cores), "--group-mb", String(Math.ceil(largeMb / 16))];
+  const r = spawnSync(process.execPath, [join(root, "bench/cluster.js"), ...args], { encoding: "utf8", stdio: ["ignore", "pipe", "inherit"] });
   process.stdout.write(r.stdout);
   results.cluster = r.stdout.trim().split("\n");
 }

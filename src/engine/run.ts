@@ -60,6 +60,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
     if (!opts.keepWork) await rm(plan.workDir, { recursive: true, force: true });
   }
   await cache.prune();
-  opts.log.info({ cache: cache.report }, "cache");
+  // The summary says it on stdout; here for those who read the debug log.
+  opts.log.debug({ cache: cache.report }, "cache");
   return { outDir: p.outDir, manifest: manifest!, cache: cache.report, phases: finished };
 }

@@ -64,15 +64,31 @@ export function phaseIndex(plan: PhasePlan, name: string): number {
   return k;
 }
 
-/** A logger that also appends each line to the task's log file (for `status`). */
-function teeLogger(log: Logger, path: string, phase: string, index: number): Logger {
+/**
+ * A logger that also appends each line to the task's log file (for `status`). `note` writes an
+ * info line to the file but only a debug line to the console: a task's start and end are what
+ * `status` reads, while a person watching a build sees them in the progress display.
+ */
+function teeLogger(log: Logger, path: string, phase: string, index: number): Logger & { note(obj: object, msg: string): void } {
   mkdirSync(dirname(path), { recursive: true });
-  const line = (level: string) => (obj: object | string, msg?: string) => {
+  const file = (level: string, obj: object | string, msg?: string) => {
     const o = typeof obj === "string" ? { msg: obj } : { ...obj, ...(msg ? { msg } : {}) };
     appendFileSync(path, JSON.stringify({ time: new Date().toISOString(), level, phase, task: index, ...o }) + "\n");
+  };
+  const line = (level: string) => (obj: object | string, msg?: string) => {
+    file(level, obj, msg);
     (log as unknown as Record<string, (o: object | string, m?: string) => void>)[level](obj, msg);
   };
-  return { info: line("info"), warn: line("warn"), error: line("error"), debug: (o, m) => log.debug(o, m) };
+  return {
+    info: line("info"),
+    warn: line("warn"),
+    error: line("error"),
+    debug: (o, m) => log.debug(o, m),
+    note: (o, m) => {
+      file("info", o, m);
+      log.debug(o, m);
+    },
+  };
 }
 
 export async function runTask(p: LoadedPipeline, phaseName: string, index: number, opts: TaskOptions): Promise<TaskResult> {
@@ -111,7 +127,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const before: CacheReport = JSON.parse(JSON.stringify(cache.report));
   let manifest: Manifest | undefined;
   try {
-    log.info({ phase: phase.name, task: index, tasks: phase.tasks }, "task started");
+    log.note({ phase: phase.name, task: index, tasks: phase.tasks }, "task started");
     const does = phase.does;
     if (does.kind === "read") {
       const pool = recordPool({ stages: does.entries, baseDir: p.baseDir, seed: p.config.seed }, threads);
@@ -211,7 +227,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   await markDone(work, d);
   meter.taskDone();
   if (opts.finished && index === phase.tasks - 1) meter.finish();
-  log.info({ phase: phase.name, task: index, seconds: d.seconds }, "task done");
+  log.note({ phase: phase.name, task: index, seconds: d.seconds }, "task done");
   return { done: d, manifest };
 }
 

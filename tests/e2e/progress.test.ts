@@ -50,7 +50,7 @@ describe("run on a terminal", () => {
     expect(r.text).toMatch(/records [\d,]+( · [\d,]+\/s)? · [\d.]+ s in this phase · [\d.]+ s in all/);
     // Redraws: at most five a second, plus one per log line written above the lines and the final erase.
     const erases = r.text.split(`${ESC}[J`).length - 1;
-    expect(logLines(r.text).map((l) => l.msg)).toContain("task started");
+    expect(logLines(r.text).map((l) => l.msg)).toContain("build complete");
     expect(erases).toBeLessThanOrEqual(2 + Math.ceil((5 * r.ms) / 1000) + logLines(r.text).length);
     const tail = afterLastErase(r.text);
     expect(tail).not.toMatch(/[█░]/);
