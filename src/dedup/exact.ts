@@ -1,32 +1,23 @@
 // Exact duplicates as a keyed step: every record emits the XXH64 of its text into the partition of
-// that hash; a partition step keeps the first record of every text in input order (units in build
-// order, rows in order) and drops the others naming it. Equal texts share a hash and so a partition.
+// that hash (its low 32 bits modulo the partitions); a partition step keeps the first record of
+// every text in input order (units in build order, rows in order) and drops the others naming it.
+// Equal texts share a hash and so a partition.
 import { hex64, loadHasher, xxh64String } from "../lib/hash.js";
-import type { KeyedForm } from "../stages/keyed.js";
-
-/** The partition of a text hash (hex): its low 32 bits modulo the partitions. */
-export const exactPartition = (hex: string, partitions: number) => parseInt(hex.slice(-8), 16) % partitions;
+import { jsonLineCollectors, type KeyedForm } from "../stages/keyed.js";
 
 const FILE = "exact.jsonl";
 
 export const exactForm: KeyedForm<unknown> = {
   kind: "keyed",
   steps: { partition: "exact-dups" },
-  async collectors() {
-    await loadHasher();
-    return {
-      async unit(_u, out) {
-        return {
-          add(r) {
-            const h = hex64(xxh64String(r.text));
-            return out.part(FILE, exactPartition(h, out.partitions)).write(JSON.stringify({ i: r.seq, h, id: r.id }) + "\n");
-          },
-          async finish() {},
-        };
-      },
-      async close() {},
-    };
-  },
+  collectors: jsonLineCollectors(
+    FILE,
+    (r) => {
+      const h = hex64(xxh64String(r.text));
+      return { hash: parseInt(h.slice(-8), 16), line: { i: r.seq, h, id: r.id } };
+    },
+    loadHasher,
+  ),
   async partition(_o, p, files, out, ctx) {
     // One entry per distinct text of the partition: the id of its first record.
     const first = new Map<string, string>();

@@ -2,7 +2,7 @@
 // read): an engine-internal keyed step. The read phase collects (source, id) of the records and
 // drops of such sources into the partition of the id's hash; the `ids` phase keeps the first unit
 // of every id in build order; the pack phase quarantines the later ones.
-import type { KeyedForm } from "../stages/keyed.js";
+import { jsonLineCollectors, type KeyedForm } from "../stages/keyed.js";
 import { loadHasher, xxh64String } from "../lib/hash.js";
 import type { Unit } from "./unit-io.js";
 
@@ -19,21 +19,14 @@ const FILE = "ids.jsonl";
 export const uniqueIdsForm: KeyedForm<unknown> = {
   kind: "keyed",
   steps: { partition: "ids" },
-  async collectors() {
-    await loadHasher();
-    return {
-      async unit(_u, out) {
-        return {
-          add(r) {
-            const key = `${r.source}\u0000${r.id}`;
-            return out.part(FILE, Number(xxh64String(key) % BigInt(out.partitions))).write(JSON.stringify({ i: r.seq, k: key }) + "\n");
-          },
-          async finish() {},
-        };
-      },
-      async close() {},
-    };
-  },
+  collectors: jsonLineCollectors(
+    FILE,
+    (r) => {
+      const k = `${r.source}\u0000${r.id}`;
+      return { hash: Number(xxh64String(k) & 0xffffffffn), line: { i: r.seq, k } };
+    },
+    loadHasher,
+  ),
   async partition(_o, p, files, out) {
     const first = new Map<string, number>();
     for (let u = 0; u < files.units; u++) {

@@ -166,6 +166,28 @@ function absent(err: NodeJS.ErrnoException): Buffer {
   throw err;
 }
 
+/**
+ * The collectors of a keyed form whose material is one JSON line per record, written into the
+ * partition its `hash` picks (hash modulo partitions); `lineOf` returning undefined skips the record.
+ */
+export function jsonLineCollectors(file: string, lineOf: (r: DocRecord) => { hash: number; line: object } | undefined, prepare: () => Promise<unknown> = async () => undefined): () => Promise<Collectors> {
+  return async () => {
+    await prepare();
+    return {
+      async unit(_u, out) {
+        return {
+          add(r) {
+            const x = lineOf(r);
+            if (x) return out.part(file, x.hash % out.partitions).write(JSON.stringify(x.line) + "\n");
+          },
+          async finish() {},
+        };
+      },
+      async close() {},
+    };
+  };
+}
+
 /** Positioned reads of one own file per unit (a descriptor per unit, opened on first use): signatures, texts. */
 export class OwnFileReader {
   private readonly fds = new Map<number, number>();
