@@ -71,7 +71,7 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     env.meter.bytes(unit.range ? unit.range.end - unit.range.start : unit.size);
   } else {
     cache.report.read.computed++;
-    const r = await computeUnit(env, u, entries, pool, out);
+    const r = await computeUnit(env, u, pool, out);
     env.meter.bytes(unit.range ? unit.range.end - unit.range.start : unit.size);
     end = r.end;
     records = r.records;
@@ -82,7 +82,7 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
   return { rows: end.rows, records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts };
 }
 
-async function computeUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, path: string) {
+async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: string) {
   const unit = env.units[u];
   const spec = unit.source;
   const mapper = new RecordMapper(spec);

@@ -83,7 +83,11 @@ export async function clearTemporaries(dir: string, mine?: { from: number; to: n
   const walk = async (d: string): Promise<void> => {
     for (const e of await readdir(d, { withFileTypes: true }).catch(() => [])) {
       const p = join(d, e.name);
-      if (e.isDirectory()) await walk(p);
+      // A keyed step's decisions are named by unit under a directory per partition; the step
+      // removes its own partitions' directory before it writes, so they are not this walk's.
+      if (e.isDirectory()) {
+        if (e.name !== "decisions") await walk(p);
+      }
       else if (/\.tmp-[0-9a-f]{8}$/.test(e.name)) {
         const n = Number(/^(\d+)\./.exec(e.name)?.[1] ?? NaN);
         if (mine === undefined || (n >= mine.from && n < mine.to)) await rm(p, { force: true });

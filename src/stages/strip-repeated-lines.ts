@@ -17,7 +17,6 @@ import { keyedStage, type KeyedForm } from "./keyed.js";
 import { field, num, obj, type Infer } from "../pipeline/schema.js";
 import { loadHasher, xxh64String } from "../lib/hash.js";
 import { SiftpackError } from "../errors.js";
-import type { DocRecord } from "../types.js";
 import { codePoints } from "../filter/units.js";
 
 export const stripRepeatedLinesOptions = obj({
