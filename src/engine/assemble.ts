@@ -10,8 +10,9 @@ import { formOf } from "../stages/stage.js";
 import { TRAINED_FILE } from "../tokenizer/index.js";
 import { crashPoint } from "../lib/crash-point.js";
 import type { LedgerCounts } from "../output/ledger.js";
-import type { SplitStats, WrittenFile } from "../output/shard-writer.js";
-import type { HistogramBucket } from "../pack/length-histogram.js";
+import { paddingFraction, type SplitStats, type WrittenFile } from "../output/shard-writer.js";
+import { LengthHistogram } from "../pack/length-histogram.js";
+import { freeName } from "../lib/numbered-name.js";
 import { Rng, seedFor } from "../pack/rng.js";
 import { shufflesSplit } from "../stages/pack.js";
 import { prepareStaging, publishStaging } from "../output/output-dir.js";
@@ -56,8 +57,7 @@ export async function assemblePhase(env: TaskEnv, { packPhase, groupCount, analy
     for (const d of env.done.get(ph.name) ?? []) {
       for (const f of d.files) {
         // A stage used twice writes its file twice: the later ones get -2, -3 … before the extension.
-        let name = f;
-        for (let n = 2; stageFiles.includes(name); n++) name = f.replace(/(\.[^.]*)?$/, (ext) => `-${n}${ext}`);
+        const name = freeName(f, (c) => stageFiles.includes(c));
         await copyFile(join(work, ph.name, "files", f), join(staging, name));
         stageFiles.push(name);
         if (f === TRAINED_FILE) trainedPath = join(staging, f);
@@ -201,30 +201,20 @@ function mergeCounts(list: LedgerCounts[]): LedgerCounts {
 /** Split statistics of every group summed; the shard lists joined in group order; histograms added bucket by bucket. */
 function mergeSplits(list: Record<string, SplitStats>[], length: number): Record<string, SplitStats> {
   const out: Record<string, SplitStats> = {};
+  const histograms = new Map<string, LengthHistogram>();
   for (const splits of list) {
     for (const [name, s] of Object.entries(splits)) {
       const m = (out[name] ??= { documents: 0, blocks: 0, tokens: 0, target_tokens: 0, padding_tokens: 0, padding_fraction: 0, cut_documents: 0, targets_lost_to_cuts: 0, continuation_tokens: 0, length_histogram: [], shards: [] });
       for (const k of ["documents", "blocks", "tokens", "target_tokens", "padding_tokens", "cut_documents", "targets_lost_to_cuts", "continuation_tokens"] as const) m[k] += s[k];
-      m.length_histogram = addHistograms(m.length_histogram, s.length_histogram);
+      let h = histograms.get(name);
+      if (!h) histograms.set(name, (h = new LengthHistogram()));
+      h.addBuckets(s.length_histogram);
       m.shards.push(...s.shards);
     }
   }
-  // Rounded so the manifest shows a readable number; the exact counts sit beside it.
-  for (const m of Object.values(out)) m.padding_fraction = m.blocks === 0 ? 0 : Math.round((m.padding_tokens / (m.blocks * length)) * 1e6) / 1e6;
-  return out;
-}
-
-function addHistograms(a: HistogramBucket[], b: HistogramBucket[]): HistogramBucket[] {
-  const byMin = new Map<number, HistogramBucket>();
-  for (const x of [...a, ...b]) {
-    const m = byMin.get(x.min);
-    if (m) m.documents += x.documents;
-    else byMin.set(x.min, { ...x });
+  for (const [name, m] of Object.entries(out)) {
+    m.length_histogram = histograms.get(name)!.buckets();
+    m.padding_fraction = paddingFraction(m.padding_tokens, m.blocks, length);
   }
-  if (byMin.size === 0) return [];
-  // Power-of-two buckets from the lowest to the highest, empty ones in between included.
-  const mins = [...byMin.keys()].sort((x, y) => x - y);
-  const outB: HistogramBucket[] = [];
-  for (let k = Math.log2(mins[0]); 2 ** k <= mins[mins.length - 1]; k++) outB.push(byMin.get(2 ** k) ?? { min: 2 ** k, max: 2 ** (k + 1) - 1, documents: 0 });
-  return outB;
+  return out;
 }

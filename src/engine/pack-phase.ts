@@ -17,7 +17,6 @@ import type { AnalysisSteps } from "../analysis/steps.js";
 import type { DocRecord, StageContext } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
 import { dropsFile, fixFromRead, keyedDirs, recordsBefore, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
-import { unitName } from "./workdir.js";
 
 /** What one group leaves for assemble (group.json). */
 export interface GroupResult {
@@ -147,7 +146,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
     files: [...writers.values()].flatMap((w) => w.writer.files),
   };
   await writeFile(join(dir, "group.json"), JSON.stringify(result) + "\n");
-  env.log.debug({ group: group.g, units: group.units.length, unit: unitName(group.units[0] ?? 0) }, "group packed");
+  env.log.debug({ group: group.g, units: group.units.length }, "group packed");
   return result;
 }
 

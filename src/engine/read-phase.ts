@@ -17,7 +17,7 @@ import { crashPoint } from "../lib/crash-point.js";
 import { hashFile, hex64, loadHasher } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { StageEntry } from "../pipeline/config.js";
-import { unitsFile, type TaskEnv } from "./unit-io.js";
+import { unitBytes, unitsFile, type TaskEnv } from "./unit-io.js";
 import { AtomicStream, copyAtomic } from "./workdir.js";
 
 export interface ReadUnitResult {
@@ -68,11 +68,11 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     if (!end) throw new SiftpackError("SP_OUTPUT", `cache entry ${hit} ends without its end marker; remove it and run again`);
     await copyAtomic(hit, out);
     env.meter.records(records);
-    env.meter.bytes(unit.range ? unit.range.end - unit.range.start : unit.size);
+    env.meter.bytes(unitBytes(unit));
   } else {
     cache.report.read.computed++;
     const r = await computeUnit(env, u, pool, out);
-    env.meter.bytes(unit.range ? unit.range.end - unit.range.start : unit.size);
+    env.meter.bytes(unitBytes(unit));
     end = r.end;
     records = r.records;
     const pending = cache.pending("read", key, ".jsonl");
@@ -89,7 +89,7 @@ async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: stri
   const out = await AtomicStream.open(path);
   const counts: Record<string, number> = {};
   let records = 0;
-  env.meter.reading(join(env.p.baseDir, unit.path), unit.range?.start ?? 0, unit.range ? unit.range.end - unit.range.start : unit.size);
+  env.meter.reading(join(env.p.baseDir, unit.path), unit.range?.start ?? 0, unitBytes(unit));
   async function* items(): AsyncGenerator<BatchItem> {
     for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper, unit.range)) {
       const i = mapper.rows - 1;

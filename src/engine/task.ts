@@ -13,7 +13,7 @@ import type { Logger, StageContext } from "../types.js";
 import type { Manifest } from "../output/manifest.js";
 import { readdir, stat } from "node:fs/promises";
 import { crashPoint } from "../lib/crash-point.js";
-import { collectUnit, partitionStep, resolveStep } from "../stages/keyed.js";
+import { collectUnit, partitionStep, resolveStep, type KeyedDirs, type KeyedForm } from "../stages/keyed.js";
 import { planPhases, shareOf, type PhasePlan } from "./plan.js";
 import { readUnit } from "./read-phase.js";
 import { PassStages } from "./pass-phase.js";
@@ -27,7 +27,7 @@ import { outputSettings } from "../stages/output-settings.js";
 import { readEvents } from "../cache/record-events.js";
 import { analysisForm } from "../analysis/registry.js";
 import type { DocRecord } from "../types.js";
-import { keyedDirs, packGroups, type PackGroup, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
+import { keyedDirs, packGroups, unitBytes, type PackGroup, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
 import { clearTemporaries, logPath, markDone, markFailed, markStarted, phaseDir, requireDone, writeAtomic, type TaskDone } from "./workdir.js";
 
 export interface TaskOptions {
@@ -115,6 +115,9 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const bytesTotal = await phaseBytes(plan, units, groups, k, share);
   const meter = new PhaseMeter({ phase: phase.name, index: k, phases: plan.phases.length, tasks: opts.finished ? phase.tasks : 1, bytesTotal }, opts.finished ?? [], opts.onProgress);
   const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads, meter };
+  // The analyses' files: collected per group by the pack phase, joined per partition by the analysis phase.
+  const analysisFiles = () =>
+    plan.analyses.map((steps) => ({ steps, ctx: { config: p.config, baseDir: p.baseDir }, dirs: analysisDirs(env, packPhaseOf(plan), analysisPhaseOf(plan), steps.key, groups.length) }));
   await markStarted(work, phase.name, index);
   // A pack task removes each of its groups' directories before packing it instead.
   if (phase.does.kind !== "pack") await clearTemporaries(phaseDir(work, phase.name), phase.tasks === 1 ? undefined : share);
@@ -158,12 +161,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       }
     } else if (does.kind === "partition") {
       const steps = plan.keyed.get(does.keyed)!;
-      const dirs = keyedDirs(env, does.keyed);
-      for (let part = share.from; part < share.to; part++) {
-        crashPoint("partition");
-        await partitionStep(steps.form, steps.entry.options, dirs, part, stepContext(env, count));
-        meter.bytes(await partitionBytes(dirs.collect, part));
-      }
+      await partitions(env, share, steps.form, steps.entry.options, keyedDirs(env, does.keyed), count);
     } else if (does.kind === "resolve") {
       const steps = plan.keyed.get(does.keyed)!;
       crashPoint("resolve");
@@ -175,10 +173,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       for (const [u, n] of r.records) unitFacts[u] = { records: n };
     } else if (does.kind === "pack") {
       const analyses = [];
-      for (const steps of plan.analyses) {
-        const ctx = { config: p.config, baseDir: p.baseDir };
-        analyses.push({ steps, dirs: analysisDirs(env, phase.name, "analysis", steps.key, groups.length), collectors: await steps.collectors(ctx, { ...stepContext(env, count), threads }) });
-      }
+      for (const a of analysisFiles()) analyses.push({ ...a, collectors: await a.steps.collectors(a.ctx, { ...stepContext(env, count), threads }) });
       try {
         for (let g = share.from; g < share.to; g++) {
           await packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined });
@@ -187,23 +182,8 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
         for (const a of analyses) await a.collectors.close();
       }
     } else if (does.kind === "analysis") {
-      const packPhase = plan.phases.find((ph) => ph.does.kind === "pack")!.name;
-      for (const steps of plan.analyses) {
-        const ctx = { config: p.config, baseDir: p.baseDir };
-        const form = analysisForm(steps, ctx);
-        const dirs = analysisDirs(env, packPhase, phase.name, steps.key, groups.length);
-        for (let part = share.from; part < share.to; part++) {
-          crashPoint("partition");
-          await partitionStep(form, undefined, dirs, part, stepContext(env, count));
-          meter.bytes(await partitionBytes(dirs.collect, part));
-        }
-      }
-    } else {
-      const packPhase = plan.phases.find((ph) => ph.does.kind === "pack")!.name;
-      const analysisPhase = plan.phases.find((ph) => ph.does.kind === "analysis")?.name ?? "analysis";
-      const analyses = plan.analyses.map((steps) => ({ steps, ctx: { config: p.config, baseDir: p.baseDir }, dirs: analysisDirs(env, packPhase, analysisPhase, steps.key, groups.length) }));
-      manifest = await assemblePhase(env, { packPhase, groupCount: groups.length, analyses });
-    }
+      for (const a of analysisFiles()) await partitions(env, share, analysisForm(a.steps, a.ctx), undefined, a.dirs, count);
+    } else manifest = await assemblePhase(env, { packPhase: packPhaseOf(plan), groupCount: groups.length, analyses: analysisFiles() });
   } catch (caught) {
     // A system error while writing the work directory (a full disk, a folder made read-only) is a
     // failure of this build, told in one line, not an internal error.
@@ -229,6 +209,18 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   if (opts.finished && index === phase.tasks - 1) meter.finish();
   log.note({ phase: phase.name, task: index, seconds: d.seconds }, "task done");
   return { done: d, manifest };
+}
+
+const packPhaseOf = (plan: PhasePlan) => plan.phases.find((ph) => ph.does.kind === "pack")!.name;
+const analysisPhaseOf = (plan: PhasePlan) => plan.phases.find((ph) => ph.does.kind === "analysis")?.name ?? "analysis";
+
+/** The task's share of a keyed form's partition steps (a keyed stage's, or an analysis'). */
+async function partitions<O>(env: TaskEnv, share: { from: number; to: number }, form: KeyedForm<O>, options: O, dirs: KeyedDirs, count: (name: string, n?: number) => void): Promise<void> {
+  for (let part = share.from; part < share.to; part++) {
+    crashPoint("partition");
+    await partitionStep(form, options, dirs, part, stepContext(env, count));
+    env.meter.bytes(await partitionBytes(dirs.collect, part));
+  }
 }
 
 /** One unit through a pass: records before it, the pass's stages, the collector; records, drops and summaries written. */
@@ -289,11 +281,10 @@ async function phaseBytes(plan: PhasePlan, units: Unit[], groups: PackGroup[], k
   const does = phase.does;
   if (does.kind === "analysis") {
     let n = 0;
-    const pack = plan.phases.find((ph) => ph.does.kind === "pack")!.name;
-    for (const a of plan.analyses) for (let part = share.from; part < share.to; part++) n += await partitionBytes(join(plan.workDir, pack, `analysis-${a.key}`), part);
+    for (const a of plan.analyses) for (let part = share.from; part < share.to; part++) n += await partitionBytes(join(plan.workDir, packPhaseOf(plan), `analysis-${a.key}`), part);
     return n;
   }
-  if (does.kind === "read") return units.slice(share.from, share.to).reduce((a, u) => a + (u.range ? u.range.end - u.range.start : u.size), 0);
+  if (does.kind === "read") return units.slice(share.from, share.to).reduce((a, u) => a + unitBytes(u), 0);
   if (does.kind === "partition") {
     let n = 0;
     for (let part = share.from; part < share.to; part++) n += await partitionBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.collect), part);

@@ -28,6 +28,9 @@ export interface Unit {
   range?: { start: number; end: number };
 }
 
+/** The bytes of its file a unit covers. */
+export const unitBytes = (u: Unit) => (u.range ? u.range.end - u.range.start : u.size);
+
 /**
  * Every unit of work in build order: sources in pipeline order, each source's files sorted by path,
  * and an uncompressed JSONL file larger than `cluster.unit_mb` cut into parts of about that size,

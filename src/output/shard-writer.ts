@@ -129,8 +129,7 @@ export class ShardWriter {
     if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows);
     this.rows = 0;
     const s = this.stats;
-    // Rounded so the manifest shows a readable number; the exact counts sit beside it.
-    s.padding_fraction = s.blocks === 0 ? 0 : Math.round((s.padding_tokens / (s.blocks * this.o.length)) * 1e6) / 1e6;
+    s.padding_fraction = paddingFraction(s.padding_tokens, s.blocks, this.o.length);
   }
 
   private async writeShard(tokens: Uint32Array, segments: Uint32Array, rows: number): Promise<void> {
@@ -167,6 +166,11 @@ export class ShardWriter {
     this.files.push({ path: rel, size: header.length + body.byteLength, xxh64: hex64(h) });
     return rel;
   }
+}
+
+/** padding / (blocks × length), rounded so the manifest shows a readable number (the exact counts sit beside it). */
+export function paddingFraction(padding: number, blocks: number, length: number): number {
+  return blocks === 0 ? 0 : Math.round((padding / (blocks * length)) * 1e6) / 1e6;
 }
 
 /** Position of each token within its document (restarting at 0 at each segment start); 0 on padding. */

@@ -20,6 +20,11 @@ export class LengthHistogram {
     this.counts[31 - Math.clz32(length)]++;
   }
 
+  /** Adds the documents of buckets another histogram gave (a merge of two histograms). */
+  addBuckets(buckets: readonly HistogramBucket[]): void {
+    for (const b of buckets) this.counts[31 - Math.clz32(b.min)] += b.documents;
+  }
+
   /** Buckets from the lowest to the highest non-empty one (empty buckets in between included, so plots need no gaps filled). */
   buckets(): HistogramBucket[] {
     let lo = 0;

@@ -19,6 +19,7 @@ import { join } from "node:path";
 import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { Stage } from "./stage.js";
 import { AtomicStream, writeAtomic } from "../lib/work-files.js";
+import { freeName } from "../lib/numbered-name.js";
 import { eventRecord, jsonLines, recordEvent, readEvents } from "../cache/record-events.js";
 
 export interface Writer {
@@ -344,8 +345,7 @@ export function keyedStage<O>(form: KeyedForm<O>, o: O, threads: number): Stage 
       await partitionStep(form, o, dirs, 0, sc);
       for (const f of await resolveStep(form, o, dirs, sc)) {
         // A stage used twice in one directory writes clusters.jsonl, then clusters-2.jsonl, …
-        let name = f;
-        for (let n = 2; existsSync(join(base, name)); n++) name = f.replace(/(\.[^.]*)?$/, (ext) => `-${n}${ext}`);
+        const name = freeName(f, (c) => existsSync(join(base, c)));
         await copyFile(join(dirs.resolveDir!, "files", f), join(base, name));
         ctx.addOutputFile(name);
       }

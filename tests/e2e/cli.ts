@@ -1,6 +1,7 @@
 // Helpers for end-to-end tests: run the built CLI as a user would, in temp directories.
 import { spawnSync } from "node:child_process";
-import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync } from "node:fs";
+import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, writeFileSync } from "node:fs";
+import { parse as parseYaml, stringify as stringifyYaml } from "yaml";
 import { tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 
@@ -69,4 +70,20 @@ export function outputFiles(dir: string): Record<string, string> {
   };
   walk("");
   return out;
+}
+
+/**
+ * A copy of a demo copy's pipeline with `tasks` per phase and its own work and output directories,
+ * edited by `edit`; returns its path. Same file name and depth as the original (the manifest names
+ * the pipeline file).
+ */
+export function demoPipelineWith(dir: string, name: string, tasks: number, edit: (pipeline: any) => void = () => {}): string {
+  const base = parseYaml(readFileSync(join(dir, "pipelines/demo.yaml"), "utf8"));
+  base.cluster = { tasks, work_dir: `../work-${name}` };
+  base.output.dir = `../build/${name}`;
+  edit(base);
+  mkdirSync(join(dir, `pipelines-${name}`));
+  const file = join(dir, `pipelines-${name}`, "demo.yaml");
+  writeFileSync(file, stringifyYaml(base));
+  return file;
 }

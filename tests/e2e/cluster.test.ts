@@ -6,26 +6,15 @@ import { readFileSync, writeFileSync, existsSync, readdirSync, mkdirSync, rmSync
 import { gunzipSync } from "node:zlib";
 import { join } from "node:path";
 import { parse, stringify } from "yaml";
-import { demoCopy, outputFiles, siftpack } from "./cli.js";
+import { demoCopy, demoPipelineWith, outputFiles, siftpack } from "./cli.js";
 
 interface PlanJson {
   phases: { name: string; tasks: number }[];
   workDir: string;
 }
 
-/**
- * A copy of the demo pipeline with `tasks` per phase and its own work and output directories;
- * returns its path. Same file name and depth as the original (the manifest names the pipeline file).
- */
-function pipelineWith(dir: string, tasks: number, name: string): string {
-  const base = parse(readFileSync(join(dir, "pipelines/demo.yaml"), "utf8"));
-  base.cluster = { tasks, work_dir: `../work-${name}` };
-  base.output.dir = `../build/${name}`;
-  mkdirSync(join(dir, `pipelines-${name}`));
-  const file = join(dir, `pipelines-${name}`, "demo.yaml");
-  writeFileSync(file, stringify(base));
-  return file;
-}
+/** A copy of the demo pipeline with `tasks` per phase and its own work and output directories. */
+const pipelineWith = (dir: string, tasks: number, name: string) => demoPipelineWith(dir, name, tasks);
 
 function planOf(file: string, cwd: string): PlanJson {
   const r = siftpack(["plan", file, "--tasks", "--json"], { cwd });

@@ -3,24 +3,16 @@
 // ledger's gzip members read as one stream (in Python too), and a shuffled split lists its shards
 // in a seeded order while a held-out split keeps group order.
 import { describe, expect, it, beforeAll } from "vitest";
-import { readFileSync, writeFileSync, mkdirSync } from "node:fs";
+import { readFileSync } from "node:fs";
 import { gunzipSync } from "node:zlib";
 import { join } from "node:path";
-import { parse, stringify } from "yaml";
-import { demoCopy, outputFiles, python, siftpack } from "./cli.js";
+import { demoCopy, demoPipelineWith, outputFiles, python, siftpack } from "./cli.js";
 
 /** A copy of the demo pipeline with small packing groups (and `tasks` per phase). */
-function pipelineWith(dir: string, name: string, tasks: number): string {
-  const base = parse(readFileSync(join(dir, "pipelines/demo.yaml"), "utf8"));
-  const pack = base.stages.find((s: Record<string, unknown>) => "pack" in s);
-  pack.pack.group_mb = 0.03;
-  base.cluster = { tasks, work_dir: `../work-${name}` };
-  base.output.dir = `../build/${name}`;
-  mkdirSync(join(dir, `pipelines-${name}`));
-  const file = join(dir, `pipelines-${name}`, "demo.yaml");
-  writeFileSync(file, stringify(base));
-  return file;
-}
+const pipelineWith = (dir: string, name: string, tasks: number) =>
+  demoPipelineWith(dir, name, tasks, (base) => {
+    base.stages.find((s: Record<string, unknown>) => "pack" in s).pack.group_mb = 0.03;
+  });
 
 describe("packing groups", () => {
   let dir: string;
