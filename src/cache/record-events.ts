@@ -1,5 +1,12 @@
-// The unit files of a build's phases (and the read phase's cache entries): one JSON line per row
-// of an input file (or part) — a record, a drop or a bad row — in row order.
+// The unit files of a build's phases (and the read phase's cache entries), and the batches the worker
+// threads take and give back: one binary frame per row of an input file (or part) — a record, a drop
+// or a bad row — in row order, then an end frame. Binary, not JSON lines: text is copied as UTF-8
+// without escaping and token ids as raw little-endian integers (2 bytes each when every id of the
+// record fits), so a phase reads and writes records at memory speed instead of re-serialising them.
+//
+// Frame: u32 body length, then the body: a kind byte, then the kind's fields. Numbers are u32 or
+// f64 (row numbers), strings a u32 byte length then UTF-8. A file ends with the end frame and a u32
+// copy of that frame's length, so its counters can be read from the last bytes alone.
 import { open } from "node:fs/promises";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
@@ -8,83 +15,317 @@ import type { QuarantineEntry } from "../sources/source.js";
 export type UnitEvent =
   | { k: "bad"; i: number; entry: QuarantineEntry }
   | { k: "drop"; i: number; id: string; source: string; file: string; line: number; reason: string; detail?: Record<string, unknown> }
-  | { k: "rec"; i: number; id: string; source: string; file: string; line: number; text: string; meta: Record<string, unknown>; split?: string; cluster?: string; tokens?: string }
-  /** Last: rows read from the file, and the stage counters the prefix stages raised on them. */
-  | { k: "end"; rows: number; counts: Record<string, number> };
+  /** A kept record; its `seq` is the row. */
+  | { k: "rec"; r: DocRecord }
+  /** Last: rows read from the file, records kept, and the stage counters the prefix stages raised on them. */
+  | { k: "end"; rows: number; records: number; counts: Record<string, number> };
 
-export function tokensToText(t: Uint32Array): string {
-  return Buffer.from(t.buffer, t.byteOffset, t.byteLength).toString("base64");
+const REC = 1;
+const DROP = 2;
+const BAD = 3;
+const END = 4;
+// Flags of a record frame.
+const HAS_SPLIT = 1;
+const HAS_CLUSTER = 2;
+const TOKENS16 = 4;
+const TOKENS32 = 8;
+
+function isEmpty(o: object): boolean {
+  for (const k in o) if (Object.hasOwn(o, k)) return false;
+  return true;
 }
 
-export function tokensFromText(s: string): Uint32Array {
-  const b = Buffer.from(s, "base64");
-  const out = new Uint32Array(b.length / 4);
-  new Uint8Array(out.buffer).set(b);
-  return out;
+/** Appends frames to a growing buffer; `take` hands the bytes over and starts a new one. */
+export class FrameWriter {
+  private buf: Buffer;
+  private at = 0;
+
+  constructor(size = 1 << 16) {
+    this.buf = Buffer.allocUnsafeSlow(size);
+  }
+
+  get length(): number {
+    return this.at;
+  }
+
+  private room(n: number): void {
+    if (this.at + n <= this.buf.length) return;
+    const bigger = Buffer.allocUnsafeSlow(Math.max(this.buf.length * 2, this.at + n));
+    this.buf.copy(bigger, 0, 0, this.at);
+    this.buf = bigger;
+  }
+
+  private u8(v: number): void {
+    this.buf[this.at++] = v;
+  }
+
+  private u32(v: number): void {
+    this.buf.writeUInt32LE(v, this.at);
+    this.at += 4;
+  }
+
+  private f64(v: number): void {
+    this.buf.writeDoubleLE(v, this.at);
+    this.at += 8;
+  }
+
+  /** A string: room is made for the worst case (3 bytes per UTF-16 unit), the length written after. */
+  private str(s: string): void {
+    this.room(4 + 3 * s.length);
+    const n = s.length === 0 ? 0 : this.buf.write(s, this.at + 4, "utf8");
+    this.buf.writeUInt32LE(n, this.at);
+    this.at += 4 + n;
+  }
+
+  private json(v: unknown): void {
+    this.str(v === undefined ? "" : JSON.stringify(v));
+  }
+
+  private begin(kind: number): number {
+    this.room(64);
+    const start = this.at;
+    this.at += 4;
+    this.u8(kind);
+    return start;
+  }
+
+  private finish(start: number): void {
+    this.buf.writeUInt32LE(this.at - start - 4, start);
+  }
+
+  rec(r: DocRecord): void {
+    const start = this.begin(REC);
+    const t = r.tokens;
+    const flagsAt = this.at;
+    this.u8((r.split !== undefined ? HAS_SPLIT : 0) | (r.cluster !== undefined ? HAS_CLUSTER : 0) | (t ? TOKENS16 : 0));
+    this.f64(r.seq);
+    this.u32(r.origin.line);
+    this.str(r.id);
+    this.str(r.source);
+    this.str(r.origin.file);
+    this.str(r.text);
+    // Most records carry no meta: an empty string stands for {}.
+    this.str(isEmpty(r.meta) ? "" : JSON.stringify(r.meta));
+    if (r.split !== undefined) this.str(r.split);
+    if (r.cluster !== undefined) this.str(r.cluster);
+    if (t) {
+      this.room(4 + t.length * 4);
+      this.u32(t.length);
+      // Two bytes an id while they fit; the first id that does not turns the record to four.
+      const b = this.buf;
+      let at = this.at;
+      for (let j = 0; j < t.length; j++) {
+        const v = t[j];
+        if (v > 0xffff) {
+          b[flagsAt] ^= TOKENS16 | TOKENS32;
+          at = this.at;
+          b.set(new Uint8Array(t.buffer, t.byteOffset, t.byteLength), at);
+          at += t.byteLength;
+          break;
+        }
+        b[at++] = v & 0xff;
+        b[at++] = v >>> 8;
+      }
+      this.at = at;
+    }
+    this.finish(start);
+  }
+
+  drop(r: { id: string; source: string; origin: { file: string; line: number }; seq: number }, reason: string, detail?: Record<string, unknown>): void {
+    const start = this.begin(DROP);
+    this.f64(r.seq);
+    this.u32(r.origin.line);
+    this.str(r.id);
+    this.str(r.source);
+    this.str(r.origin.file);
+    this.str(reason);
+    this.json(detail);
+    this.finish(start);
+  }
+
+  bad(i: number, entry: QuarantineEntry): void {
+    const start = this.begin(BAD);
+    this.f64(i);
+    this.json(entry);
+    this.finish(start);
+  }
+
+  /** The end frame and the trailer that repeats its length. */
+  end(rows: number, records: number, counts: Record<string, number>): void {
+    const start = this.begin(END);
+    this.json({ rows, records, counts });
+    this.finish(start);
+    this.room(4);
+    this.u32(this.at - start - 4);
+  }
+
+  /** Any event, as read back. */
+  event(e: UnitEvent): void {
+    if (e.k === "rec") this.rec(e.r);
+    else if (e.k === "drop") this.drop({ id: e.id, source: e.source, origin: { file: e.file, line: e.line }, seq: e.i }, e.reason, e.detail);
+    else if (e.k === "bad") this.bad(e.i, e.entry);
+    else this.end(e.rows, e.records, e.counts);
+  }
+
+  /** The frames written so far, in memory of their own (never Node's shared pool, so they can be moved to a thread); the writer starts afresh. */
+  take(): Buffer {
+    const out = this.buf.subarray(0, this.at);
+    this.buf = Buffer.allocUnsafeSlow(Math.max(1 << 16, this.buf.length));
+    this.at = 0;
+    return out;
+  }
 }
 
-export function recordEvent(r: DocRecord): UnitEvent {
-  return {
-    k: "rec",
-    i: r.seq,
-    id: r.id,
-    source: r.source,
-    file: r.origin.file,
-    line: r.origin.line,
-    text: r.text,
-    meta: r.meta,
-    ...(r.split !== undefined ? { split: r.split } : {}),
-    ...(r.cluster !== undefined ? { cluster: r.cluster } : {}),
-    ...(r.tokens ? { tokens: tokensToText(r.tokens) } : {}),
-  };
+/** Reads the frames of one buffer. */
+class FrameReader {
+  at: number;
+  constructor(
+    private readonly b: Buffer,
+    start: number,
+  ) {
+    this.at = start;
+  }
+  u8(): number {
+    return this.b[this.at++];
+  }
+  u32(): number {
+    const v = this.b.readUInt32LE(this.at);
+    this.at += 4;
+    return v;
+  }
+  f64(): number {
+    const v = this.b.readDoubleLE(this.at);
+    this.at += 8;
+    return v;
+  }
+  str(): string {
+    const n = this.u32();
+    const s = n === 0 ? "" : this.b.toString("utf8", this.at, this.at + n);
+    this.at += n;
+    return s;
+  }
+  json<T>(): T | undefined {
+    const s = this.str();
+    return s === "" ? undefined : (JSON.parse(s) as T);
+  }
+  tokens(wide: boolean): Uint32Array {
+    const n = this.u32();
+    // Copied out (the read buffer is reused), widened by the typed-array copy from an aligned view.
+    const out = new Uint32Array(n);
+    const size = n * (wide ? 4 : 2);
+    let bytes: Uint8Array = this.b.subarray(this.at, this.at + size);
+    if (bytes.byteOffset % (wide ? 4 : 2) !== 0) bytes = Uint8Array.prototype.slice.call(bytes);
+    out.set(wide ? new Uint32Array(bytes.buffer, bytes.byteOffset, n) : new Uint16Array(bytes.buffer, bytes.byteOffset, n));
+    const at = this.at + size;
+    this.at = at;
+    return out;
+  }
 }
 
-export function dropEvent(r: DocRecord, reason: string, detail?: Record<string, unknown>): UnitEvent {
-  return { k: "drop", i: r.seq, id: r.id, source: r.source, file: r.origin.file, line: r.origin.line, reason, ...(detail ? { detail } : {}) };
+function decodeBody(b: Buffer, start: number): UnitEvent {
+  const f = new FrameReader(b, start);
+  const kind = f.u8();
+  if (kind === REC) {
+    const flags = f.u8();
+    const seq = f.f64();
+    const line = f.u32();
+    const id = f.str();
+    const source = f.str();
+    const file = f.str();
+    const text = f.str();
+    const meta = f.json<Record<string, unknown>>() ?? {};
+    const r: DocRecord = { id, source, text, meta, origin: { file, line }, seq };
+    if (flags & HAS_SPLIT) r.split = f.str();
+    if (flags & HAS_CLUSTER) r.cluster = f.str();
+    if (flags & (TOKENS16 | TOKENS32)) r.tokens = f.tokens((flags & TOKENS32) !== 0);
+    return { k: "rec", r };
+  }
+  if (kind === DROP) {
+    const i = f.f64();
+    const line = f.u32();
+    const id = f.str();
+    const source = f.str();
+    const file = f.str();
+    const reason = f.str();
+    const detail = f.json<Record<string, unknown>>();
+    return { k: "drop", i, id, source, file, line, reason, ...(detail ? { detail } : {}) };
+  }
+  if (kind === BAD) {
+    const i = f.f64();
+    return { k: "bad", i, entry: f.json<QuarantineEntry>()! };
+  }
+  if (kind === END) return { k: "end", ...f.json<{ rows: number; records: number; counts: Record<string, number> }>()! };
+  throw new Error(`unknown frame kind ${kind}`);
 }
 
-/** The record an event carries, `seq` being its row in the file. */
-export function eventRecord(e: Extract<UnitEvent, { k: "rec" }>): DocRecord {
-  const r: DocRecord = { id: e.id, source: e.source, text: e.text, meta: e.meta, origin: { file: e.file, line: e.line }, seq: e.i };
-  if (e.split !== undefined) r.split = e.split;
-  if (e.cluster !== undefined) r.cluster = e.cluster;
-  if (e.tokens !== undefined) r.tokens = tokensFromText(e.tokens);
-  return r;
+/** The record a drop frame names (its text and meta are not kept). */
+export function dropRecord(e: Extract<UnitEvent, { k: "drop" }>): DocRecord {
+  return { id: e.id, source: e.source, text: "", meta: {}, origin: { file: e.file, line: e.line }, seq: e.i };
 }
 
+/** The events of frames held in memory (a batch), in order; stops after an end frame. */
+export function* decodeFrames(bytes: Uint8Array): Generator<UnitEvent> {
+  const b = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  for (let at = 0; at + 4 <= b.length; ) {
+    const n = b.readUInt32LE(at);
+    const e = decodeBody(b, at + 4);
+    yield e;
+    if (e.k === "end") return;
+    at += 4 + n;
+  }
+}
+
+/** The events of a unit file, read in large chunks; stops after the end frame. */
 export async function* readEvents(path: string): AsyncGenerator<UnitEvent> {
-  for await (const line of jsonLines(path)) yield JSON.parse(line) as UnitEvent;
-}
-
-/**
- * The lines of a file we wrote (JSON lines: "\n" ends a line, never inside one), read in large
- * chunks and split on the newline byte: readline's decoder and line regex cost more than parsing.
- */
-export async function* jsonLines(path: string): AsyncGenerator<string> {
   const fh = await open(path, "r");
   try {
     let buf = Buffer.allocUnsafe(1 << 22);
     let filled = 0;
     for (;;) {
-      if (filled === buf.length) {
-        const bigger = Buffer.allocUnsafe(buf.length * 2);
-        buf.copy(bigger, 0, 0, filled);
-        buf = bigger;
-      }
       const { bytesRead } = await fh.read(buf, filled, buf.length - filled, null);
-      if (bytesRead === 0) break;
       const end = filled + bytesRead;
-      let start = 0;
-      for (let nl = buf.indexOf(10, filled); nl >= 0 && nl < end; nl = buf.indexOf(10, start)) {
-        if (nl > start) yield buf.toString("utf8", start, nl);
-        start = nl + 1;
-        if (start >= end) break;
+      let at = 0;
+      while (at + 4 <= end) {
+        const n = buf.readUInt32LE(at);
+        if (at + 4 + n > end) break;
+        const e = decodeBody(buf, at + 4);
+        yield e;
+        if (e.k === "end") return;
+        at += 4 + n;
       }
-      // Keep the unfinished line at the front for the next read.
-      filled = end - start;
-      if (start > 0 && filled > 0) buf.copy(buf, 0, start, end);
+      if (bytesRead === 0) {
+        if (end > at) throw new Error(`${path}: ends inside a frame`);
+        return;
+      }
+      // Keep the unfinished frame at the front for the next read, in a larger buffer if it needs one.
+      filled = end - at;
+      const need = filled >= 4 ? 4 + buf.readUInt32LE(at) : 0;
+      if (need > buf.length) {
+        const bigger = Buffer.allocUnsafe(Math.max(need, buf.length * 2));
+        buf.copy(bigger, 0, at, end);
+        buf = bigger;
+      } else if (at > 0) buf.copy(buf, 0, at, end);
     }
-    if (filled > 0) yield buf.toString("utf8", 0, filled);
+  } finally {
+    await fh.close();
+  }
+}
+
+/** The end frame of a complete unit file, read from its last bytes. */
+export async function readEnd(path: string): Promise<Extract<UnitEvent, { k: "end" }> | undefined> {
+  const fh = await open(path, "r");
+  try {
+    const { size } = await fh.stat();
+    if (size < 9) return undefined;
+    const tail = Buffer.alloc(4);
+    await fh.read(tail, 0, 4, size - 4);
+    const n = tail.readUInt32LE(0);
+    if (n + 8 > size) return undefined;
+    const body = Buffer.alloc(n + 4);
+    await fh.read(body, 0, n + 4, size - 8 - n);
+    if (body.readUInt32LE(0) !== n) return undefined;
+    const e = decodeBody(body, 4);
+    return e.k === "end" ? e : undefined;
   } finally {
     await fh.close();
   }

@@ -11,7 +11,8 @@ import { xxh64String } from "../lib/hash.js";
 import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
 import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
-import { toBatchRecord, unpack, type BatchItem, type BatchOut } from "../parallel/record-batch.js";
+import type { BatchOut } from "../parallel/record-batch.js";
+import { FrameWriter, decodeFrames } from "../cache/record-events.js";
 import type { Stage } from "../stages/stage.js";
 import type { DocRecord } from "../types.js";
 
@@ -19,10 +20,13 @@ interface Pending {
   records: DocRecord[];
   /** Ids found in the cache, by position; undefined where the pool computes them. */
   cached: (Uint32Array | undefined)[];
-  misses: BatchItem[];
+  /** Frames of the records the pool computes, and how many. */
+  misses: FrameWriter;
+  missed: number;
 }
 
-const EMPTY: BatchOut = { items: [], counts: {}, tokens: new Uint32Array(0), ends: new Int32Array(0) };
+const EMPTY: BatchOut = { frames: new Uint8Array(0), counts: {}, rows: 0, records: 0 };
+const pending = (): Pending => ({ records: [], cached: [], misses: new FrameWriter(), missed: 0 });
 
 /**
  * A stage of form `record` that `encodes` (sets tokens from the text alone), run on the pool.
@@ -46,8 +50,7 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
     };
 
     async function* batches(): AsyncGenerator<Pending> {
-      let p: Pending = { records: [], cached: [], misses: [] };
-      let bytes = 0;
+      let p = pending();
       for await (const r of input) {
         let hit: Uint32Array | undefined;
         if (cache) {
@@ -66,13 +69,12 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
         p.records.push(r);
         p.cached.push(hit);
         if (!hit) {
-          p.misses.push({ k: "rec", r: toBatchRecord(r) });
-          bytes += r.text.length;
+          p.misses.rec(r);
+          p.missed++;
         }
-        if (p.records.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
+        if (p.records.length >= BATCH_RECORDS || p.misses.length >= BATCH_BYTES) {
           yield p;
-          p = { records: [], cached: [], misses: [] };
-          bytes = 0;
+          p = pending();
         }
       }
       reading?.reader?.close();
@@ -81,19 +83,20 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
 
     let complete = false;
     try {
-      for await (const { item: p, result } of orderedMap(batches(), (p) => (p.misses.length ? pool.submit(p.misses) : Promise.resolve(EMPTY)), BATCHES_AHEAD)) {
-        const computed = [...unpack(result)];
+      for await (const { item: p, result } of orderedMap(batches(), (p) => (p.missed ? pool.submit(p.misses.take()) : Promise.resolve(EMPTY)), BATCHES_AHEAD)) {
+        const computed = [...decodeFrames(result.frames)];
         let next = 0;
         for (let i = 0; i < p.records.length; i++) {
           const r = p.records[i];
           let tokens = p.cached[i];
           if (!tokens) {
             const got = computed[next++];
-            if (got.item.k === "drop") {
-              ctx.drop(r, got.item.reason, got.item.detail);
+            if (got.k === "drop") {
+              ctx.drop(r, got.reason, got.detail);
               continue;
             }
-            tokens = got.record!.tokens!;
+            if (got.k !== "rec") throw new Error(`tokenizing: a ${got.k} frame came back for a record`);
+            tokens = got.r.tokens!;
           }
           if (cache) {
             const id = unitId(r.source, r.origin.file);

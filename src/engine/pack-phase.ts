@@ -8,7 +8,7 @@ import { join } from "node:path";
 import { createPacker, type Packer } from "../stages/pack.js";
 import type { OutputSettings } from "../stages/output-settings.js";
 import { collectUnit, KeyedDirs, type Collectors } from "../stages/keyed.js";
-import { readEvents, type UnitEvent } from "../cache/record-events.js";
+import { dropRecord, readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { copiesFor } from "./weights.js";
 import { Ledger, type LedgerCounts } from "../output/ledger.js";
@@ -151,5 +151,5 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
 }
 
 function dropOf(e: Extract<UnitEvent, { k: "drop" }>): { r: DocRecord; reason: string; detail?: Record<string, unknown> } {
-  return { r: { id: e.id, source: e.source, text: "", meta: {}, origin: { file: e.file, line: e.line }, seq: e.i }, reason: e.reason, detail: e.detail };
+  return { r: dropRecord(e), reason: e.reason, detail: e.detail };
 }

@@ -3,8 +3,9 @@
 // token cache) and of form `unit`, then to the collector of the next keyed stage; records and
 // drops are written per unit.
 import { orderedMap } from "../parallel/pool.js";
-import { BATCHES_AHEAD, batched, recordPool, type RecordPool } from "../parallel/record-pool.js";
-import { toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
+import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, recordPool, type RecordPool } from "../parallel/record-pool.js";
+import { recordBatches } from "../parallel/record-batch.js";
+import { decodeFrames, dropRecord } from "../cache/record-events.js";
 import { parallelTokenize } from "./cached-tokenize.js";
 import { recordFailure } from "./record-failure.js";
 import type { BuildCache } from "../cache/build-cache.js";
@@ -16,27 +17,18 @@ import type { DocRecord, StageContext } from "../types.js";
 /** Per-record stages as one stream stage: batches go to the pool, results come back in order. */
 export function poolStage(pool: RecordPool): Stage {
   return async function* pooled(input, ctx) {
-    async function* items(): AsyncGenerator<BatchItem> {
-      for await (const r of input) yield { k: "rec", r: toBatchRecord(r) };
-    }
-    const batches = () => batched(items(), (b) => (b.k === "rec" ? b.r.text.length : 0));
     try {
-      for await (const { result } of orderedMap(batches(), (b) => pool.submit(b), BATCHES_AHEAD)) {
+      for await (const { result } of orderedMap(recordBatches(input, BATCH_RECORDS, BATCH_BYTES), (b) => pool.submit(b), BATCHES_AHEAD)) {
         for (const [name, n] of Object.entries(result.counts)) ctx.count(name, n);
-        for (const { item, record } of unpack(result)) {
-          if (item.k === "drop") ctx.drop(fromItem(item), item.reason, item.detail);
-          else if (item.k === "rec") yield record!;
+        for (const e of decodeFrames(result.frames)) {
+          if (e.k === "drop") ctx.drop(dropRecord(e), e.reason, e.detail);
+          else if (e.k === "rec") yield e.r;
         }
       }
     } catch (err) {
       throw recordFailure(err);
     }
   };
-}
-
-function fromItem(item: Extract<BatchItem, { k: "drop" }>): DocRecord {
-  const b = item.r;
-  return { id: b.id, source: b.source, text: b.text, meta: b.meta, origin: { file: b.file, line: b.line }, seq: b.seq };
 }
 
 /**

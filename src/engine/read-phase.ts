@@ -1,16 +1,15 @@
 // The read phase: each input file of the task's share is read, mapped and run through the leading
 // per-record stages (in batches on the worker pool), its fates written in row order to
-// read/units/<u>.jsonl. The same file is the build cache's entry for it, so a rerun with the same
-// file and settings copies it instead of redoing the work.
-import { copyFile, open } from "node:fs/promises";
+// read/units/<u>.bin. The same file is the build cache's entry for it, so a rerun with the same
+// file and settings links it instead of redoing the work.
+import { open } from "node:fs/promises";
 import { join } from "node:path";
 import { readSourceFile, RecordMapper } from "../sources/source.js";
 import { BuildCache } from "../cache/build-cache.js";
-import { readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
+import { FrameWriter, readEnd, type UnitEvent } from "../cache/record-events.js";
 import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
-import { BATCHES_AHEAD, batched, type RecordPool } from "../parallel/record-pool.js";
-import { fromBatchRecord, toBatchRecord, unpack, type BatchItem } from "../parallel/record-batch.js";
+import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
 import { recordFailure } from "./record-failure.js";
 import { STAGES } from "../stages/index.js";
 import { crashPoint } from "../lib/crash-point.js";
@@ -18,7 +17,7 @@ import { hashFile, hex64, loadHasher } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { StageEntry } from "../pipeline/config.js";
 import { unitBytes, unitsFile, type TaskEnv } from "./unit-io.js";
-import { AtomicStream, copyAtomic } from "./workdir.js";
+import { AtomicStream, linkAtomic, linkOrCopy } from "./workdir.js";
 
 export interface ReadUnitResult {
   rows: number;
@@ -56,33 +55,28 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     prefix: entries.map((e) => ({ [e.name]: e.options, ...(STAGES[e.name].identity ? { identity: STAGES[e.name].identity!(e.options, p.baseDir) } : {}) })),
   });
   const out = unitsFile(env.plan.workDir, env.phase.name, u);
-  const hit = await cache.lookup("read", key, ".jsonl");
+  const hit = await cache.lookup("read", key, ".bin");
   let end: Extract<UnitEvent, { k: "end" }> | undefined;
-  let records = 0;
   if (hit) {
     cache.report.read.reused++;
-    for await (const e of readEvents(hit)) {
-      if (e.k === "rec") records++;
-      else if (e.k === "end") end = e;
-    }
+    end = await readEnd(hit);
     if (!end) throw new SiftpackError("SP_OUTPUT", `cache entry ${hit} ends without its end marker; remove it and run again`);
-    await copyAtomic(hit, out);
-    env.meter.records(records);
+    await linkAtomic(hit, out);
+    env.meter.records(end.rows);
     env.meter.bytes(unitBytes(unit));
   } else {
     cache.report.read.computed++;
-    const r = await computeUnit(env, u, pool, out);
+    end = await computeUnit(env, u, pool, out);
     env.meter.bytes(unitBytes(unit));
-    end = r.end;
-    records = r.records;
-    const pending = cache.pending("read", key, ".jsonl");
-    await copyFile(out, pending.tmp);
+    // The unit file is never written again once complete: the cache entry is a second name for it.
+    const pending = cache.pending("read", key, ".bin");
+    await linkOrCopy(out, pending.tmp);
     await pending.commit();
   }
-  return { rows: end.rows, records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts };
+  return { rows: end.rows, records: end.records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts };
 }
 
-async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: string) {
+async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: string): Promise<Extract<UnitEvent, { k: "end" }>> {
   const unit = env.units[u];
   const spec = unit.source;
   const mapper = new RecordMapper(spec);
@@ -90,36 +84,34 @@ async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: stri
   const counts: Record<string, number> = {};
   let records = 0;
   env.meter.reading(join(env.p.baseDir, unit.path), unit.range?.start ?? 0, unitBytes(unit));
-  async function* items(): AsyncGenerator<BatchItem> {
+  // Rows as frames, cut into batches for the pool.
+  async function* batches(): AsyncGenerator<Uint8Array> {
+    const w = new FrameWriter(BATCH_BYTES + (BATCH_BYTES >> 2));
+    let n = 0;
     for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper, unit.range)) {
       const i = mapper.rows - 1;
-      if (item.kind === "bad") yield { k: "bad", entry: item.entry, i };
-      else yield { k: "rec", r: toBatchRecord({ id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i }) };
+      if (item.kind === "bad") w.bad(i, item.entry);
+      else w.rec({ id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i });
+      if (++n >= BATCH_RECORDS || w.length >= BATCH_BYTES) {
+        yield w.take();
+        n = 0;
+      }
     }
+    if (n > 0) yield w.take();
   }
-  const batches = () => batched(items(), (b) => (b.k === "rec" ? b.r.text.length : 0));
   try {
     for await (const { result } of orderedMap(batches(), (b) => pool.submit(b), BATCHES_AHEAD)) {
       for (const [name, n] of Object.entries(result.counts)) counts[name] = (counts[name] ?? 0) + n;
-      let lines = "";
-      for (const { item, record } of unpack(result)) {
-        if (item.k === "bad") lines += JSON.stringify({ k: "bad", i: item.i!, entry: item.entry } satisfies UnitEvent) + "\n";
-        else if (item.k === "drop") {
-          const r = fromBatchRecord(item.r);
-          lines += JSON.stringify({ k: "drop", i: r.seq, id: r.id, source: r.source, file: r.origin.file, line: r.origin.line, reason: item.reason, ...(item.detail ? { detail: item.detail } : {}) } satisfies UnitEvent) + "\n";
-        } else {
-          records++;
-          lines += JSON.stringify(recordEvent(record!)) + "\n";
-        }
-      }
-      await out.write(lines);
+      records += result.records;
+      await out.write(result.frames);
       crashPoint("read");
-      env.meter.records(result.items.length);
+      env.meter.records(result.rows);
     }
-    const end: Extract<UnitEvent, { k: "end" }> = { k: "end", rows: mapper.rows, counts };
-    await out.write(JSON.stringify(end) + "\n");
+    const w = new FrameWriter(1024);
+    w.end(mapper.rows, records, counts);
+    await out.write(w.take());
     await out.commit();
-    return { end, records };
+    return { k: "end", rows: mapper.rows, records, counts };
   } catch (err) {
     await out.abort();
     throw recordFailure(err);

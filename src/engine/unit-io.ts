@@ -8,7 +8,7 @@ import type { LoadedPipeline } from "../pipeline/load.js";
 import type { SourceConfig } from "../pipeline/config.js";
 import { toolVersion } from "../output/manifest.js";
 import { BuildCache } from "../cache/build-cache.js";
-import { dropEvent, eventRecord, readEvents, recordEvent, type UnitEvent } from "../cache/record-events.js";
+import { FrameWriter, readEvents, type UnitEvent } from "../cache/record-events.js";
 import { KeyedDirs, keyedApplier } from "../stages/keyed.js";
 import type { PhaseMeter } from "./progress.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
@@ -153,8 +153,10 @@ export function fixFromRead(env: TaskEnv, u: number, r: { id: string; seq: numbe
   r.origin.line += f.lines;
 }
 
-export const unitsFile = (work: string, phase: string, u: number) => join(work, phase, "units", `${unitName(u)}.jsonl`);
-export const dropsFile = (work: string, phase: string, u: number) => join(work, phase, "drops", `${unitName(u)}.jsonl`);
+/** A unit's records (and, after read, its drops and bad rows) as a phase left them, in record frames. */
+export const unitsFile = (work: string, phase: string, u: number) => join(work, phase, "units", `${unitName(u)}.bin`);
+/** The drops a later phase made, in record frames. */
+export const dropsFile = (work: string, phase: string, u: number) => join(work, phase, "drops", `${unitName(u)}.bin`);
 /** Per unit: the summaries of a pass's stages of form `unit`, a JSON array by entry. */
 export const summaryFile = (work: string, phase: string, u: number) => join(work, phase, "summaries", `${unitName(u)}.json`);
 
@@ -211,7 +213,7 @@ export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: St
   env.meter.reading(path, 0, await fileSize(path));
   next: for await (const e of readEvents(path)) {
     if (e.k !== "rec") continue;
-    let r: DocRecord | undefined = eventRecord(e);
+    let r: DocRecord | undefined = e.r;
     if (from.does.kind === "read") {
       fixFromRead(env, u, r);
       if (weight !== 1 && copiesFor(weight, `${r.source}\u0000${r.id}`, env.p.config.seed) === 0) {
@@ -236,6 +238,8 @@ async function fileSize(path: string): Promise<number> {
 /** One unit's output of a phase: its records and the drops the phase made, each file complete or absent. */
 export class UnitOutput {
   records = 0;
+  private readonly frames = new FrameWriter(1 << 20);
+  private readonly dropFrames = new FrameWriter();
   private constructor(
     private readonly units: AtomicStream,
     private readonly drops: AtomicStream,
@@ -248,15 +252,19 @@ export class UnitOutput {
   async add(r: DocRecord): Promise<void> {
     crashPoint("unit-records");
     this.records++;
-    await this.units.write(JSON.stringify(recordEvent(r)) + "\n");
+    this.frames.rec(r);
+    if (this.frames.length >= 1 << 20) await this.units.write(this.frames.take());
+    if (this.dropFrames.length >= 1 << 20) await this.drops.write(this.dropFrames.take());
   }
 
-  /** Synchronous for stages; the stream buffers until the next `add`. */
+  /** Synchronous for stages; written with the records. */
   drop(r: DocRecord, reason: string, detail?: Record<string, unknown>): void {
-    this.drops.out.write(JSON.stringify(dropEvent(r, reason, detail)) + "\n");
+    this.dropFrames.drop(r, reason, detail);
   }
 
   async commit(): Promise<void> {
+    await this.units.write(this.frames.take());
+    await this.drops.write(this.dropFrames.take());
     await this.units.commit();
     await this.drops.commit();
   }

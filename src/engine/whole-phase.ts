@@ -8,7 +8,7 @@ import { join } from "node:path";
 import { STAGES } from "../stages/index.js";
 import type { StageEntry } from "../pipeline/config.js";
 import { SiftpackError } from "../errors.js";
-import { dropEvent } from "../cache/record-events.js";
+import { FrameWriter } from "../cache/record-events.js";
 import type { DocRecord, StageContext } from "../types.js";
 import { dropsFile, recordsBefore, unitFixes, UnitOutput, type TaskEnv } from "./unit-io.js";
 import { writeAtomic } from "./workdir.js";
@@ -39,7 +39,7 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
   const filesDir = join(work, name, "files");
   await mkdir(filesDir, { recursive: true });
   const unitOf = unitFinder(env);
-  const drops = new Map<number, string[]>();
+  const drops = new Map<number, FrameWriter>();
   const files: string[] = [];
   const ctx: StageContext = {
     seed: env.p.config.seed,
@@ -49,9 +49,9 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
     count,
     drop: (r, reason, detail) => {
       const u = unitOf(r);
-      let l = drops.get(u);
-      if (!l) drops.set(u, (l = []));
-      l.push(JSON.stringify(dropEvent(r, reason, detail)) + "\n");
+      let w = drops.get(u);
+      if (!w) drops.set(u, (w = new FrameWriter()));
+      w.drop(r, reason, detail);
     },
   };
   async function* all(): AsyncGenerator<DocRecord> {
@@ -93,6 +93,6 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
     throw err;
   }
   // The per-unit outputs opened a drops file each; the drops gathered here replace them.
-  for (const unit of env.units) await writeAtomic(dropsFile(work, name, unit.u), (drops.get(unit.u) ?? []).join(""));
+  for (const unit of env.units) await writeAtomic(dropsFile(work, name, unit.u), drops.get(unit.u)?.take() ?? "");
   return { files, records };
 }

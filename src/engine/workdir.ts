@@ -31,7 +31,7 @@ export interface TaskDone {
   seconds: number;
 }
 
-export { AtomicStream, copyAtomic, writeAtomic } from "../lib/work-files.js";
+export { AtomicStream, linkAtomic, linkOrCopy, writeAtomic } from "../lib/work-files.js";
 export const unitName = (u: number) => String(u).padStart(6, "0");
 export const phaseDir = (work: string, phase: string) => join(work, phase);
 const marker = (work: string, phase: string, i: number, what: "done" | "started" | "failed") => join(work, phase, `task-${i}.${what}.json`);

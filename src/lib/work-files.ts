@@ -1,7 +1,7 @@
 // Files that appear under their final name only when complete, with a temporary name of their own
 // per writer: the build engine's work files and a keyed stage's files are written this way.
 import { createWriteStream, type WriteStream } from "node:fs";
-import { copyFile, mkdir, rename, rm, writeFile } from "node:fs/promises";
+import { copyFile, link, mkdir, rename, rm, writeFile } from "node:fs/promises";
 import { once } from "node:events";
 import { randomBytes } from "node:crypto";
 import { dirname } from "node:path";
@@ -18,11 +18,25 @@ export async function writeAtomic(path: string, data: string | Uint8Array): Prom
   await rename(tmp, path);
 }
 
-/** Copies a file into place under a temporary name first. */
-export async function copyAtomic(from: string, to: string): Promise<void> {
+/**
+ * A second name for a complete file that is never written again (a unit file and its cache entry):
+ * a hard link, or a copy where links cannot be made (another file system, a file system without them).
+ */
+export async function linkOrCopy(from: string, to: string): Promise<void> {
+  try {
+    await link(from, to);
+  } catch (err) {
+    const code = (err as NodeJS.ErrnoException).code;
+    if (code !== "EXDEV" && code !== "EPERM" && code !== "ENOTSUP" && code !== "EMLINK" && code !== "EOPNOTSUPP") throw err;
+    await copyFile(from, to);
+  }
+}
+
+/** A second name (`linkOrCopy`) put into place under a temporary name first. */
+export async function linkAtomic(from: string, to: string): Promise<void> {
   await mkdir(dirname(to), { recursive: true });
   const tmp = tmpName(to);
-  await copyFile(from, tmp);
+  await linkOrCopy(from, tmp);
   await rename(tmp, to);
 }
 
@@ -34,7 +48,8 @@ export class AtomicStream {
 
   private constructor(private readonly path: string) {
     this.tmp = tmpName(path);
-    this.out = createWriteStream(this.tmp, { highWaterMark: 1 << 20 });
+    // A deep buffer: the writer goes on computing while the disk takes earlier bytes, and waits only past 8 MB.
+    this.out = createWriteStream(this.tmp, { highWaterMark: 1 << 23 });
     this.out.on("error", (e) => (this.failure ??= e));
   }
 

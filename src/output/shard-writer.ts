@@ -102,14 +102,19 @@ export class ShardWriter {
   private countRow(seg: Uint32Array): void {
     const s = this.stats;
     s.blocks++;
+    // A token is a target when the token before it is of the same document (segment ids are never -1).
+    let padding = 0;
+    let targets = 0;
+    let prev = -1;
     for (let i = 0; i < seg.length; i++) {
       const v = seg[i];
-      if (v === 0) s.padding_tokens++;
-      else {
-        s.tokens++;
-        if (i > 0 && seg[i - 1] === v) s.target_tokens++;
-      }
+      if (v === 0) padding++;
+      else if (v === prev) targets++;
+      prev = v;
     }
+    s.padding_tokens += padding;
+    s.tokens += seg.length - padding;
+    s.target_tokens += targets;
   }
 
   get pending(): number {

@@ -33,6 +33,8 @@ export interface PoolOptions<Req, Res> {
   local: () => Promise<Handler<Req, Res>>;
   /** Names the workers in errors ("dedup signing worker"). */
   name?: string;
+  /** Buffers of a request to move to the worker instead of copying (the caller lets go of them). */
+  transfer?: (req: Req) => ArrayBuffer[];
 }
 
 /**
@@ -47,6 +49,7 @@ export class WorkerPool<Req, Res> {
   private readonly url: URL | undefined;
   private readonly init: unknown;
   private readonly name: string;
+  private readonly transfer: ((req: Req) => ArrayBuffer[]) | undefined;
   private readonly workers: Worker[] = [];
   private readonly idle: Worker[] = [];
   private readonly queue: Job<Req, Res>[] = [];
@@ -58,6 +61,7 @@ export class WorkerPool<Req, Res> {
     this.threads = this.url ? o.threads : 1;
     this.init = o.init;
     this.name = o.name ?? "worker thread";
+    this.transfer = o.transfer;
     if (!this.url) this.localHandler = o.local();
   }
 
@@ -89,7 +93,7 @@ export class WorkerPool<Req, Res> {
       const job = this.queue.shift()!;
       this.running.set(w, job);
       w.ref();
-      w.postMessage(job.req);
+      w.postMessage(job.req, this.transfer?.(job.req));
     }
   }
 

@@ -1,11 +1,13 @@
 // Batches of records for the per-record stages: what goes to a worker, what comes back, and the
-// handler that runs the stages on a batch (the same code in a worker thread or in-thread).
+// handler that runs the stages on a batch (the same code in a worker thread or in-thread). A batch
+// travels as one buffer of record frames (src/cache/record-events.ts), moved to and from the worker
+// rather than cloned record by record; the frames that come back are the unit file's bytes.
 import { STAGES } from "../stages/index.js";
 import { failPoint } from "../lib/crash-point.js";
+import { FrameWriter, decodeFrames } from "../cache/record-events.js";
 import type { Stage } from "../stages/stage.js";
 import type { StageEntry } from "../pipeline/config.js";
 import type { DocRecord, StageContext } from "../types.js";
-import type { QuarantineEntry } from "../sources/source.js";
 
 export interface BatchInit {
   stages: StageEntry[];
@@ -13,45 +15,14 @@ export interface BatchInit {
   seed: number;
 }
 
-/** A record as sent to a worker (origin flattened; tokens travel separately). */
-export interface BatchRecord {
-  id: string;
-  source: string;
-  text: string;
-  meta: Record<string, unknown>;
-  file: string;
-  line: number;
-  seq: number;
-  split?: string;
-  cluster?: string;
-}
-
-/** Items keep their input order; `bad` and `drop` items pass through untouched, for the ledger. */
-export type BatchItem =
-  | { k: "rec"; r: BatchRecord }
-  | { k: "bad"; entry: QuarantineEntry; i?: number }
-  | { k: "drop"; r: BatchRecord; reason: string; detail?: Record<string, unknown> };
-
-/** Results in the same order: tokens of kept records concatenated in `tokens`, their ends in `ends`. */
+/** Results in input order: a frame per item (kept record with its tokens, drop, or bad row passed through). */
 export interface BatchOut {
-  items: BatchItem[];
+  frames: Uint8Array;
   /** Stage counters (ctx.count) raised while running the batch. */
   counts: Record<string, number>;
-  tokens: Uint32Array;
-  /** For each item: -1 if it is not a kept record with tokens, else the end offset of its tokens. */
-  ends: Int32Array;
-}
-
-export function toBatchRecord(r: DocRecord): BatchRecord {
-  return { id: r.id, source: r.source, text: r.text, meta: r.meta, file: r.origin.file, line: r.origin.line, seq: r.seq, split: r.split, cluster: r.cluster };
-}
-
-export function fromBatchRecord(b: BatchRecord, tokens?: Uint32Array): DocRecord {
-  const r: DocRecord = { id: b.id, source: b.source, text: b.text, meta: b.meta, origin: { file: b.file, line: b.line }, seq: b.seq };
-  if (b.split !== undefined) r.split = b.split;
-  if (b.cluster !== undefined) r.cluster = b.cluster;
-  if (tokens) r.tokens = tokens;
-  return r;
+  /** Frames in the batch (rows), and kept records among them. */
+  rows: number;
+  records: number;
 }
 
 /** An error in a stage, with the record it was processing. */
@@ -67,71 +38,65 @@ async function* one(r: DocRecord): AsyncGenerator<DocRecord> {
   yield r;
 }
 
+const quiet = { info() {}, warn() {}, error() {}, debug() {} };
+
 /** Builds the handler: creates the stages once, then runs each record through them alone. */
-export async function batchHandler(init: BatchInit): Promise<(items: BatchItem[]) => Promise<BatchOut>> {
+export async function batchHandler(init: BatchInit): Promise<(frames: Uint8Array) => Promise<BatchOut>> {
   const stages: Stage[] = [];
   for (const e of init.stages) stages.push(await STAGES[e.name].create(e.options, { baseDir: init.baseDir }));
-  return async (items) => {
-    const out: BatchItem[] = [];
+  return async (frames) => {
+    // Output is about the input's size plus token ids (2 bytes each for most encodings, ~1 per 3 bytes of text).
+    const out = new FrameWriter(frames.byteLength + (frames.byteLength >> 1) + 1024);
     const counts: Record<string, number> = {};
-    const kept: Uint32Array[] = [];
-    const ends = new Int32Array(items.length).fill(-1);
-    let total = 0;
-    for (const item of items) {
-      if (item.k !== "rec") {
-        out.push(item);
+    let rows = 0;
+    let records = 0;
+    for (const e of decodeFrames(frames)) {
+      rows++;
+      if (e.k !== "rec") {
+        out.event(e);
         continue;
       }
-      let dropped: BatchItem | undefined;
+      let dropped = false;
       const ctx: StageContext = {
         seed: init.seed,
         // Stages run here only when they are per-record: they write no files of their own.
-        log: { info() {}, warn() {}, error() {}, debug() {} },
+        log: quiet,
         workDir: "",
         addOutputFile() {},
         count: (name, n = 1) => (counts[name] = (counts[name] ?? 0) + n),
-        drop: (r, reason, detail) => (dropped = { k: "drop", r: toBatchRecord(r), reason, ...(detail ? { detail } : {}) }),
+        drop: (r, reason, detail) => {
+          dropped = true;
+          out.drop(r, reason, detail);
+        },
       };
-      let stream: AsyncIterable<DocRecord> = one(fromBatchRecord(item.r));
+      let stream: AsyncIterable<DocRecord> = one(e.r);
       for (const s of stages) stream = s(stream, ctx);
       let result: DocRecord | undefined;
       try {
-        failPoint(item.r.id);
+        failPoint(e.r.id);
         for await (const r of stream) result = r;
       } catch (err) {
-        throw new RecordError((err as Error)?.message ?? String(err), { file: item.r.file, line: item.r.line, source: item.r.source, id: item.r.id });
+        throw new RecordError((err as Error)?.message ?? String(err), { file: e.r.origin.file, line: e.r.origin.line, source: e.r.source, id: e.r.id });
       }
       if (result) {
-        out.push({ k: "rec", r: toBatchRecord(result) });
-        if (result.tokens) {
-          kept.push(result.tokens);
-          total += result.tokens.length;
-          ends[out.length - 1] = total;
-        }
-      } else if (dropped) out.push(dropped);
+        out.rec(result);
+        records++;
+      } else if (!dropped) throw new RecordError("a per-record stage let a record go without dropping it", { file: e.r.origin.file, line: e.r.origin.line, source: e.r.source, id: e.r.id });
     }
-    const tokens = new Uint32Array(total);
-    let at = 0;
-    for (const t of kept) {
-      tokens.set(t, at);
-      at += t.length;
-    }
-    return { items: out, counts, tokens, ends };
+    return { frames: out.take(), counts, rows, records };
   };
 }
 
-/** Walks a batch result in order: kept records (with their tokens) and the other items. */
-export function* unpack(out: BatchOut): Generator<{ item: BatchItem; record?: DocRecord }> {
-  let start = 0;
-  for (let i = 0; i < out.items.length; i++) {
-    const item = out.items[i];
-    if (item.k !== "rec") {
-      yield { item };
-      continue;
+/** Records to frames, cut into batches of at most BATCH_RECORDS records or about BATCH_BYTES. */
+export async function* recordBatches(input: AsyncIterable<DocRecord>, records: number, bytes: number): AsyncGenerator<Uint8Array> {
+  const w = new FrameWriter(bytes + (bytes >> 2));
+  let n = 0;
+  for await (const r of input) {
+    w.rec(r);
+    if (++n >= records || w.length >= bytes) {
+      yield w.take();
+      n = 0;
     }
-    const end = out.ends[i];
-    const tokens = end >= 0 ? out.tokens.slice(start, end) : undefined;
-    if (end >= 0) start = end;
-    yield { item, record: fromBatchRecord(item.r, tokens) };
   }
+  if (n > 0) yield w.take();
 }

@@ -1,12 +1,13 @@
 // The pool that runs per-record stages on batches, in worker threads when the stages are built-in
 // (a worker can rebuild them from their names and options) and more than one thread is asked for.
 import { WorkerPool, compiledModule } from "./pool.js";
-import { batchHandler, type BatchInit, type BatchItem, type BatchOut } from "./record-batch.js";
+import { batchHandler, type BatchInit, type BatchOut } from "./record-batch.js";
 import { BUILTIN_STAGES } from "../stages/index.js";
 
-export type RecordPool = WorkerPool<BatchItem[], BatchOut>;
+/** Takes a buffer of record frames (moved to the worker), gives back the result frames. */
+export type RecordPool = WorkerPool<Uint8Array, BatchOut>;
 
-/** Records per batch, and text bytes per batch: large enough to amortise a message, small enough to keep every thread busy. */
+/** Records per batch, and frame bytes per batch: large enough to amortise a message, small enough to keep every thread busy. */
 export const BATCH_RECORDS = 256;
 export const BATCH_BYTES = 1 << 20;
 /**
@@ -18,26 +19,11 @@ export const BATCHES_AHEAD = 16;
 
 export function recordPool(init: BatchInit, threads: number): RecordPool {
   const builtin = init.stages.every((s) => BUILTIN_STAGES.has(s.name));
-  return new WorkerPool<BatchItem[], BatchOut>({
+  return new WorkerPool<Uint8Array, BatchOut>({
     module: builtin && init.stages.length > 0 ? compiledModule("./record-worker.js", import.meta.url) : undefined,
     init,
     threads,
     local: () => batchHandler(init),
+    transfer: (frames) => [frames.buffer as ArrayBuffer],
   });
-}
-
-/** Groups a stream into batches of at most BATCH_RECORDS items or about BATCH_BYTES of text (`bytesOf` an item). */
-export async function* batched<T>(items: AsyncIterable<T>, bytesOf: (item: T) => number): AsyncGenerator<T[]> {
-  let batch: T[] = [];
-  let bytes = 0;
-  for await (const item of items) {
-    batch.push(item);
-    bytes += bytesOf(item);
-    if (batch.length >= BATCH_RECORDS || bytes >= BATCH_BYTES) {
-      yield batch;
-      batch = [];
-      bytes = 0;
-    }
-  }
-  if (batch.length > 0) yield batch;
 }

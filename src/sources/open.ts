@@ -52,7 +52,7 @@ export async function openInput(file: string, range?: { start: number; end: numb
     throw new SiftpackError("SP_INPUT_MISSING", `cannot open "${file}": ${describeSystemError(err)}`, { cause: err });
   }
   if (range && compression !== "none") throw new Error(`openInput: a byte range of a compressed file (${file})`);
-  const raw = handle.createReadStream({ highWaterMark: 64 * 1024, ...(range ? { start: range.start, end: range.end - 1 } : {}) });
+  const raw = handle.createReadStream({ highWaterMark: 1 << 20, ...(range ? { start: range.start, end: range.end - 1 } : {}) });
   if (compression === "none") return raw;
   // pipeline() tears down both ends if either fails or the consumer stops early, so the fd never leaks.
   return pipeline(raw, compression === "gzip" ? createGunzip() : createZstdDecoder(), () => {});

@@ -20,7 +20,8 @@ import type { DocRecord, Logger, StageContext } from "../types.js";
 import type { Stage } from "./stage.js";
 import { AtomicStream, writeAtomic } from "../lib/work-files.js";
 import { freeName } from "../lib/numbered-name.js";
-import { eventRecord, jsonLines, recordEvent, readEvents } from "../cache/record-events.js";
+import { FrameWriter, readEvents } from "../cache/record-events.js";
+import { jsonLines } from "../lib/json-lines.js";
 
 export interface Writer {
   write(data: string | Uint8Array): Promise<void>;
@@ -329,13 +330,16 @@ export function keyedStage<O>(form: KeyedForm<O>, o: O, threads: number): Stage 
       const dirs = new KeyedDirs(join(dir, "collect"), join(dir, "partition"), form.resolve ? join(dir, "resolve") : undefined, 1, 1);
       const env: KeyedEnv = { seed: ctx.seed, baseDir: base, threads, log: ctx.log, count: ctx.count };
       const collectors = await form.collectors(o, env);
-      const spill = await AtomicStream.open(join(dir, "records.jsonl"));
+      const spill = await AtomicStream.open(join(dir, "records.bin"));
       try {
         const unit = await collectUnit(dirs, collectors, 0);
+        const frames = new FrameWriter();
         for await (const r of input) {
           await unit.add(r);
-          await spill.write(JSON.stringify(recordEvent(r)) + "\n");
+          frames.rec(r);
+          if (frames.length >= 1 << 20) await spill.write(frames.take());
         }
+        await spill.write(frames.take());
         await unit.finish();
         await spill.commit();
       } finally {
@@ -350,9 +354,9 @@ export function keyedStage<O>(form: KeyedForm<O>, o: O, threads: number): Stage 
         ctx.addOutputFile(name);
       }
       const apply = await (await keyedApplier(form, o, dirs, sc))(0);
-      for await (const e of readEvents(join(dir, "records.jsonl"))) {
+      for await (const e of readEvents(join(dir, "records.bin"))) {
         if (e.k !== "rec") continue;
-        const r = apply(eventRecord(e), ctx);
+        const r = apply(e.r, ctx);
         if (r) yield r;
       }
     } finally {

@@ -4,7 +4,7 @@ import { mkdtempSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import fc from "fast-check";
-import { jsonLines } from "../../src/cache/record-events.js";
+import { jsonLines } from "../../src/lib/json-lines.js";
 
 async function linesOf(content: string | Buffer): Promise<string[]> {
   const path = join(mkdtempSync(join(tmpdir(), "siftpack-lines-")), "f.jsonl");
