@@ -20,6 +20,11 @@ export interface DocRecord {
   cluster?: string;
   /** Set by the tokenize stage. */
   tokens?: Uint32Array;
+  /**
+   * Set only where the build engine left the text unread (the pack phase, when nothing there reads
+   * it): `text` is then "" and this is the real text's length in UTF-8 bytes.
+   */
+  textBytes?: number;
 }
 
 /** What a stage may do besides passing records on: account for the ones it drops. */

@@ -6,6 +6,7 @@ import { BatchSigner, type SignerParams } from "../dedup/signer.js";
 import { WorkerPool, compiledModule } from "../parallel/pool.js";
 import { loadHasher, xxh64String } from "../lib/hash.js";
 import { uint32s } from "../lib/grow.js";
+import { LO } from "./distinct-keys.js";
 import { TEXT_SALT } from "../overlap/figures.js";
 import { NgramHasher } from "../overlap/ngram-hash.js";
 import { wordsOf, type WordForm } from "../overlap/words.js";
@@ -18,13 +19,26 @@ export interface HashParams {
   signer?: SignerParams;
 }
 
+/** A batch to hash: the texts, and which of them are train's (1) rather than a held-out split's (0). */
+export interface HashRequest {
+  texts: string[];
+  train: Uint8Array;
+}
+
 /** One batch's results, in the batch's order; the buffers move back from a worker without copying. */
 export interface HashedBatch {
   count: number;
-  /** Document i's n-gram hashes are hi/lo[start[i], start[i + 1]) (none when it has fewer words than n). */
-  start: Uint32Array;
+  /** N-gram positions of document i (0 when it has fewer words than n). */
+  ngrams: Uint32Array;
+  /** The n-gram hashes of the held-out documents, one after the other in batch order. */
   hi: Uint32Array;
   lo: Uint32Array;
+  /**
+   * Train's n-gram hashes and text fingerprints in the batch, as 64-bit keys (pairs of halves in this
+   * machine's layout, see distinct-keys.ts), sorted and without repeats: train's keys count only by
+   * presence, so the sorting that cuts them into partitions is done here, on the hashing thread.
+   */
+  trainKeys: Uint32Array;
   /** The XXH64 of the text's UTF-8 bytes as two halves, the high one XORed with TEXT_SALT (as the one-pass counter does). */
   textHi: Uint32Array;
   textLo: Uint32Array;
@@ -34,7 +48,7 @@ export interface HashedBatch {
 }
 
 export function transferList(b: HashedBatch): ArrayBuffer[] {
-  const list = [b.start, b.hi, b.lo, b.textHi, b.textLo, b.signatures, b.bandKeys].filter((a): a is Uint32Array => a !== undefined);
+  const list = [b.ngrams, b.hi, b.lo, b.trainKeys, b.textHi, b.textLo, b.signatures, b.bandKeys].filter((a): a is Uint32Array => a !== undefined);
   return list.map((a) => a.buffer as ArrayBuffer);
 }
 
@@ -48,25 +62,35 @@ export class DocHasher {
     this.signer = p.signer ? new BatchSigner(p.signer) : undefined;
   }
 
-  hash(texts: string[]): HashedBatch {
+  hash({ texts, train }: HashRequest): HashedBatch {
     const count = texts.length;
-    const start = new Uint32Array(count + 1);
+    const ngrams = new Uint32Array(count);
     const hi = uint32s();
     const lo = uint32s();
+    const keys = uint32s();
     const textHi = new Uint32Array(count);
     const textLo = new Uint32Array(count);
+    const pair = (h: number, l: number) => {
+      // Pushed in the machine's 64-bit layout, so a BigUint64Array view sorts them as keys.
+      if (LO === 0) keys.push(l), keys.push(h);
+      else keys.push(h), keys.push(l);
+    };
     for (let i = 0; i < count; i++) {
       const n = this.ngrams.hash(wordsOf(texts[i], this.p.form));
-      for (let x = 0; x < n; x++) {
-        hi.push(this.ngrams.hi[x]);
-        lo.push(this.ngrams.lo[x]);
-      }
-      start[i + 1] = start[i] + n;
+      ngrams[i] = n;
       const h = xxh64String(texts[i]);
       textHi[i] = Number(h >> 32n) ^ TEXT_SALT;
       textLo[i] = Number(h & 0xffffffffn);
+      if (train[i]) {
+        for (let x = 0; x < n; x++) pair(this.ngrams.hi[x], this.ngrams.lo[x]);
+        pair(textHi[i], textLo[i]);
+      } else
+        for (let x = 0; x < n; x++) {
+          hi.push(this.ngrams.hi[x]);
+          lo.push(this.ngrams.lo[x]);
+        }
     }
-    const out: HashedBatch = { count, start, hi: hi.view().slice(), lo: lo.view().slice(), textHi, textLo };
+    const out: HashedBatch = { count, ngrams, hi: hi.view().slice(), lo: lo.view().slice(), trainKeys: sortedDistinct(keys.view()), textHi, textLo };
     if (this.signer) {
       const s = this.signer.sign(texts);
       out.signatures = s.signatures;
@@ -76,9 +100,23 @@ export class DocHasher {
   }
 }
 
+/** The distinct 64-bit keys of `w` (pairs of halves), sorted, in an array of their own. */
+function sortedDistinct(w: Uint32Array): Uint32Array {
+  const n = w.length / 2;
+  new BigUint64Array(w.buffer, w.byteOffset, n).sort();
+  let m = 0;
+  for (let i = 0; i < n; i++) {
+    if (m > 0 && w[2 * i] === w[2 * m - 2] && w[2 * i + 1] === w[2 * m - 1]) continue;
+    w[2 * m] = w[2 * i];
+    w[2 * m + 1] = w[2 * i + 1];
+    m++;
+  }
+  return w.slice(0, 2 * m);
+}
+
 /** Hashing on `threads` worker threads (1 or fewer: in the calling thread, as under a test runner without dist/). */
-export function hashPool(params: HashParams, threads: number): WorkerPool<string[], HashedBatch> {
-  return new WorkerPool<string[], HashedBatch>({
+export function hashPool(params: HashParams, threads: number): WorkerPool<HashRequest, HashedBatch> {
+  return new WorkerPool<HashRequest, HashedBatch>({
     module: compiledModule("./overlap-hash-worker.js", import.meta.url),
     init: params,
     threads,
@@ -86,7 +124,7 @@ export function hashPool(params: HashParams, threads: number): WorkerPool<string
     local: async () => {
       await loadHasher();
       const h = new DocHasher(params);
-      return async (texts) => h.hash(texts);
+      return async (req) => h.hash(req);
     },
   });
 }

@@ -6,7 +6,7 @@
 // n-grams and text hashed and, when near-duplicates are counted, its MinHash signature made (in
 // batches, on worker threads when the task has several). Every n-gram key and salted text
 // fingerprint goes to the partition of its key: a train document's keys go there bare (sorted and
-// without repeats per buffer, since only presence matters), a held-out document's keys go there
+// without repeats per batch, on the hashing thread, since only presence matters), a held-out document's keys go there
 // tagged with its split and its number within the split, because the figures count per held-out
 // position and per held-out document. Every band key of a signature goes to the partition of that
 // key likewise, and the signature itself (with its band keys) to the group's own file.
@@ -49,21 +49,20 @@ import { HashMap64 } from "../overlap/hash-map64.js";
 import { heldOutPairs, nearDupDescription, ngramCounts, pairFigures, splitOrder, wordsDescription, type NearDupSettings, type OverlapFigures } from "../overlap/figures.js";
 import type { WordForm } from "../overlap/words.js";
 import { DISTINCT_BUDGET, DistinctKeys, HI, LO } from "./distinct-keys.js";
-import { hashPool, type HashedBatch, type HashParams } from "./overlap-hash.js";
+import { hashPool, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
 import { nearDupOf, overlapApplies, vocabSizeOf } from "./overlap-settings.js";
 
 /** Texts per hashing batch, and the text size that closes a batch early. */
-const BATCH_DOCS = 256;
-const BATCH_CHARS = 1 << 20;
+const BATCH_DOCS = 1024;
+const BATCH_CHARS = 1 << 22;
 /**
- * Buffer sizes. Train keys buffered (8 bytes each) before they are sorted, stripped of repeats and
- * written; numbers buffered across the partition files (a file is written when it holds its share,
+ * Buffer sizes. Numbers buffered across the partition files (a file is written when it holds its share,
  * so memory does not grow with the number of partitions); words per read of a partition file
  * (8 MiB); held-out signature rows kept while joining buckets (a bucket's members are met again and
  * again); train keys a partition step counts in memory before it spills (distinct-keys.ts). Tests
  * shrink them to exercise every flush, spill and chunk boundary on small inputs.
  */
-export const overlapLimits = { trainBuffer: 1 << 20, partFlush: 1 << 20, readWords: 1 << 21, rowCache: 4096, distinctBudget: DISTINCT_BUDGET };
+export const overlapLimits = { partFlush: 1 << 20, readWords: 1 << 21, rowCache: 4096, distinctBudget: DISTINCT_BUDGET };
 /** Marks a held-out text fingerprint among its n-gram keys. */
 const TEXT_FLAG = 0x80000000;
 const TWO32 = 4294967296;
@@ -106,22 +105,23 @@ class GroupCollector implements UnitCollector {
   private readonly splits: { meta: SplitMeta; unigram: UnigramCounts; train: boolean }[] = [];
   private items: { code: number; n: number }[] = [];
   private texts: string[] = [];
+  private isTrain: number[] = [];
   private chars = 0;
   private readonly pending: { items: { code: number; n: number }[]; result: Promise<HashedBatch> }[] = [];
   private rows = 0;
-  private readonly trainBuffer = overlapLimits.trainBuffer;
-  private readonly train = new Uint32Array(2 * this.trainBuffer);
-  private trainUsed = 0;
+  /** Train's keys by partition, as sorted runs (one per batch) of 64-bit keys. */
+  private readonly train: Grow<Uint32Array>[];
   private readonly held: number[][];
   private readonly bandsTrain: number[][];
   private readonly bandsHeld: number[][];
 
   constructor(
     private readonly nearDup: NearDupSettings | undefined,
-    private readonly pool: WorkerPool<string[], HashedBatch>,
+    private readonly pool: WorkerPool<HashRequest, HashedBatch>,
     private readonly out: CollectOutput,
   ) {
     const parts = () => Array.from({ length: out.partitions }, () => [] as number[]);
+    this.train = Array.from({ length: out.partitions }, () => uint32s());
     this.held = parts();
     this.bandsTrain = parts();
     this.bandsHeld = parts();
@@ -139,17 +139,19 @@ class GroupCollector implements UnitCollector {
     if (r.tokens) s.unigram.add(r.tokens);
     this.items.push({ code, n: s.meta.documents++ });
     this.texts.push(r.text);
+    this.isTrain.push(s.train ? 1 : 0);
     this.chars += r.text.length;
     if (this.items.length >= BATCH_DOCS || this.chars >= BATCH_CHARS) await this.send(false);
   }
 
   private async send(drain: boolean): Promise<void> {
     if (this.items.length > 0) {
-      const result = this.pool.submit(this.texts);
+      const result = this.pool.submit({ texts: this.texts, train: Uint8Array.from(this.isTrain) });
       result.catch(() => undefined); // awaited in order below
       this.pending.push({ items: this.items, result });
       this.items = [];
       this.texts = [];
+      this.isTrain = [];
       this.chars = 0;
     }
     while (this.pending.length > (drain ? 0 : Math.max(2, 2 * this.pool.threads))) {
@@ -165,22 +167,16 @@ class GroupCollector implements UnitCollector {
     const bands = nd?.bands ?? 0;
     const rowWords = k + bands;
     const sigRows = nd ? new Uint32Array(res.count * rowWords) : undefined;
+    let at = 0;
     for (let i = 0; i < res.count; i++) {
       const { code, n } = items[i];
       const s = this.splits[code];
-      const from = res.start[i];
-      const to = res.start[i + 1];
-      if (from === to) s.meta.short++;
-      s.meta.ngrams += to - from;
-      if (s.train) {
-        for (let x = from; x < to; x++) {
-          if (this.trainUsed === this.trainBuffer) await this.flushTrain();
-          this.pushTrain(res.hi[x], res.lo[x]);
-        }
-        if (this.trainUsed === this.trainBuffer) await this.flushTrain();
-        this.pushTrain(res.textHi[i], res.textLo[i]);
-      } else {
-        for (let x = from; x < to; x++) this.held[keyPartition(res.hi[x], P)].push(res.hi[x], res.lo[x], code, n);
+      const ngrams = res.ngrams[i];
+      if (ngrams === 0) s.meta.short++;
+      s.meta.ngrams += ngrams;
+      if (!s.train) {
+        for (let x = at; x < at + ngrams; x++) this.held[keyPartition(res.hi[x], P)].push(res.hi[x], res.lo[x], code, n);
+        at += ngrams;
         this.held[keyPartition(res.textHi[i], P)].push(res.textHi[i], res.textLo[i], (code | TEXT_FLAG) >>> 0, n);
       }
       if (sigRows) {
@@ -195,43 +191,27 @@ class GroupCollector implements UnitCollector {
       this.rows++;
     }
     if (sigRows) await this.out.own("sig.bin").write(new Uint8Array(sigRows.buffer));
-    for (let p = 0; p < P; p++) await this.flushParts(p, false);
-  }
-
-  private pushTrain(hi: number, lo: number): void {
-    this.train[2 * this.trainUsed + HI] = hi;
-    this.train[2 * this.trainUsed + LO] = lo;
-    this.trainUsed++;
-  }
-
-  /** Sorts the buffered train keys, drops repeats and writes each partition's run (keys of one partition are contiguous once sorted). */
-  private async flushTrain(): Promise<void> {
-    const n = this.trainUsed;
-    if (n === 0) return;
-    this.trainUsed = 0;
-    const w = this.train;
-    new BigUint64Array(w.buffer, 0, n).sort();
-    let m = 0;
-    for (let i = 0; i < n; i++) {
-      if (m > 0 && w[2 * i] === w[2 * m - 2] && w[2 * i + 1] === w[2 * m - 1]) continue;
-      w[2 * m] = w[2 * i];
-      w[2 * m + 1] = w[2 * i + 1];
-      m++;
-    }
-    const P = this.out.partitions;
-    let from = 0;
-    while (from < m) {
+    // Train's keys come sorted: the keys of one partition are contiguous.
+    const w = res.trainKeys;
+    for (let from = 0; from < w.length / 2; ) {
       const p = keyPartition(w[2 * from + HI], P);
       let to = from + 1;
-      while (to < m && keyPartition(w[2 * to + HI], P) === p) to++;
-      // A copy: the stream holds what it is given until written, and the buffer is reused.
-      await this.out.part("ng-train", p).write(new Uint8Array(w.slice(2 * from, 2 * to).buffer));
+      while (to < w.length / 2 && keyPartition(w[2 * to + HI], P) === p) to++;
+      const t = this.train[p];
+      for (let x = 2 * from; x < 2 * to; x++) t.push(w[x]);
       from = to;
     }
+    for (let p = 0; p < P; p++) await this.flushParts(p, false);
   }
 
   private async flushParts(p: number, all: boolean): Promise<void> {
     const share = Math.max(1, Math.floor(overlapLimits.partFlush / this.out.partitions));
+    const t = this.train[p];
+    if (t.length > 0 && (all || t.length >= share)) {
+      // A copy: the stream holds what it is given until written, and the column is reused.
+      await this.out.part("ng-train", p).write(new Uint8Array(t.view().slice().buffer));
+      t.length = 0;
+    }
     for (const [name, list] of [
       ["ng-held", this.held],
       ["bands-train", this.bandsTrain],
@@ -246,7 +226,6 @@ class GroupCollector implements UnitCollector {
 
   async finish(): Promise<void> {
     await this.send(true);
-    await this.flushTrain();
     for (let p = 0; p < this.out.partitions; p++) await this.flushParts(p, true);
     // A group without records writes nothing: its files read as empty.
     if (this.splits.length === 0) return;
@@ -566,6 +545,7 @@ function settings(ctx: AnalysisContext): { ngram: number; nearDup: NearDupSettin
 
 export const overlapSteps: AnalysisSteps = {
   key: "overlap",
+  usesText: true,
   applies: (ctx) => overlapApplies(ctx.config),
 
   async collectors(ctx, env) {

@@ -15,6 +15,8 @@ export interface AnalysisContext {
 export interface AnalysisSteps {
   /** The manifest key the figures go under. */
   key: string;
+  /** Whether the collectors read the records' text (else the pack phase may leave it unread: "" with `textBytes` set). */
+  usesText: boolean;
   /** Whether the analysis applies to this build (e.g. the overlap figures need a held-out split). */
   applies(ctx: AnalysisContext): boolean;
   /**

@@ -94,6 +94,7 @@ function order(s: string): number {
 
 export const tokenStatsSteps: AnalysisSteps = {
   key: "token_stats",
+  usesText: false,
   applies: () => true,
 
   async collectors() {
@@ -103,7 +104,7 @@ export const tokenStatsSteps: AnalysisSteps = {
         return {
           add(r: DocRecord) {
             const n = r.tokens?.length ?? 0;
-            const bytes = Buffer.byteLength(r.text);
+            const bytes = r.textBytes ?? Buffer.byteLength(r.text);
             const split = r.split ?? "train";
             t.get(split, r.source).add(n, bytes);
             t.get(split, "*").add(n, bytes);

@@ -204,6 +204,12 @@ class FrameReader {
     this.at += n;
     return s;
   }
+  /** Passes over a string, giving its length in bytes. */
+  skip(): number {
+    const n = this.u32();
+    this.at += n;
+    return n;
+  }
   json<T>(): T | undefined {
     const s = this.str();
     return s === "" ? undefined : (JSON.parse(s) as T);
@@ -222,7 +228,13 @@ class FrameReader {
   }
 }
 
-function decodeBody(b: Buffer, start: number): UnitEvent {
+/** What a reader asks of the frames: records' text (else "" with its length in `textBytes`), and records at all (else they are skipped). */
+export interface ReadOptions {
+  text?: boolean;
+  records?: boolean;
+}
+
+function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
   const f = new FrameReader(b, start);
   const kind = f.u8();
   if (kind === REC) {
@@ -232,9 +244,12 @@ function decodeBody(b: Buffer, start: number): UnitEvent {
     const id = f.str();
     const source = f.str();
     const file = f.str();
-    const text = f.str();
+    const skip = o?.text === false;
+    const textBytes = skip ? f.skip() : 0;
+    const text = skip ? "" : f.str();
     const meta = f.json<Record<string, unknown>>() ?? {};
     const r: DocRecord = { id, source, text, meta, origin: { file, line }, seq };
+    if (skip) r.textBytes = textBytes;
     if (flags & HAS_SPLIT) r.split = f.str();
     if (flags & HAS_CLUSTER) r.cluster = f.str();
     if (flags & (TOKENS16 | TOKENS32)) r.tokens = f.tokens((flags & TOKENS32) !== 0);
@@ -276,7 +291,8 @@ export function* decodeFrames(bytes: Uint8Array): Generator<UnitEvent> {
 }
 
 /** The events of a unit file, read in large chunks; stops after the end frame. */
-export async function* readEvents(path: string): AsyncGenerator<UnitEvent> {
+export async function* readEvents(path: string, o?: ReadOptions): AsyncGenerator<UnitEvent> {
+  const records = o?.records !== false;
   const fh = await open(path, "r");
   try {
     let buf = Buffer.allocUnsafe(1 << 22);
@@ -288,9 +304,11 @@ export async function* readEvents(path: string): AsyncGenerator<UnitEvent> {
       while (at + 4 <= end) {
         const n = buf.readUInt32LE(at);
         if (at + 4 + n > end) break;
-        const e = decodeBody(buf, at + 4);
-        yield e;
-        if (e.k === "end") return;
+        if (records || buf[at + 4] !== REC) {
+          const e = decodeBody(buf, at + 4, o);
+          yield e;
+          if (e.k === "end") return;
+        }
         at += 4 + n;
       }
       if (bytesRead === 0) {

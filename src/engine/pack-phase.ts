@@ -80,7 +80,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       const fix = unitFixes(env)[u];
       const repeated = idsDirs ? await idsDirs.decisions(u) : undefined;
       const fates: Fate[] = [];
-      for await (const e of readEvents(unitsFile(work, "read", u))) {
+      for await (const e of readEvents(unitsFile(work, "read", u), { records: false })) {
         if (e.k === "bad") fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
         else if (e.k === "drop") {
           const d = dropOf(e);
@@ -90,12 +90,12 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       }
       for (const ph of plan.phases.slice(1, k)) {
         if (ph.does.kind !== "pass" && ph.does.kind !== "whole") continue;
-        for await (const e of readEvents(dropsFile(work, ph.name, u))) if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
+        for await (const e of readEvents(dropsFile(work, ph.name, u), { records: false })) if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
       }
       // Drops made while reading (decisions applied now), in row order as the records come.
       const late: Fate[] = [];
       const ctx: StageContext = { seed: config.seed, log: env.log, workDir: dir, addOutputFile: () => {}, count: o.count, drop: (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }) };
-      const records = recordsBefore(env, k, u, ctx);
+      const records = recordsBefore(env, k, u, ctx, { text: o.analyses.some((a) => a.steps.usesText) });
       const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
         if ("rec" in f || f.drop) {
           const r = "rec" in f ? f.rec : f.drop!.r;
