@@ -49,7 +49,7 @@ import { HashMap64 } from "../overlap/hash-map64.js";
 import { heldOutPairs, nearDupDescription, ngramCounts, pairFigures, splitOrder, wordsDescription, type NearDupSettings, type OverlapFigures } from "../overlap/figures.js";
 import type { WordForm } from "../overlap/words.js";
 import { DISTINCT_BUDGET, DistinctKeys, HI, LO } from "./distinct-keys.js";
-import { hashPool, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
+import { hashPool, TextBatch, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
 import { nearDupOf, overlapApplies, vocabSizeOf } from "./overlap-settings.js";
 
 /** Texts per hashing batch, and the text size that closes a batch early. */
@@ -104,8 +104,7 @@ class GroupCollector implements UnitCollector {
   private readonly codes = new Map<string, number>();
   private readonly splits: { meta: SplitMeta; unigram: UnigramCounts; train: boolean }[] = [];
   private items: { code: number; n: number }[] = [];
-  private texts: string[] = [];
-  private isTrain: number[] = [];
+  private texts = new TextBatch();
   private chars = 0;
   private readonly pending: { items: { code: number; n: number }[]; result: Promise<HashedBatch> }[] = [];
   private rows = 0;
@@ -138,20 +137,17 @@ class GroupCollector implements UnitCollector {
     const s = this.splits[code];
     if (r.tokens) s.unigram.add(r.tokens);
     this.items.push({ code, n: s.meta.documents++ });
-    this.texts.push(r.text);
-    this.isTrain.push(s.train ? 1 : 0);
+    this.texts.add(r.text, s.train);
     this.chars += r.text.length;
     if (this.items.length >= BATCH_DOCS || this.chars >= BATCH_CHARS) await this.send(false);
   }
 
   private async send(drain: boolean): Promise<void> {
     if (this.items.length > 0) {
-      const result = this.pool.submit({ texts: this.texts, train: Uint8Array.from(this.isTrain) });
+      const result = this.pool.submit(this.texts.take());
       result.catch(() => undefined); // awaited in order below
       this.pending.push({ items: this.items, result });
       this.items = [];
-      this.texts = [];
-      this.isTrain = [];
       this.chars = 0;
     }
     while (this.pending.length > (drain ? 0 : Math.max(2, 2 * this.pool.threads))) {

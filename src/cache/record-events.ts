@@ -3,6 +3,8 @@
 // or a bad row — in row order, then an end frame. Binary, not JSON lines: text is copied as UTF-8
 // without escaping and token ids as raw little-endian integers (2 bytes each when every id of the
 // record fits), so a phase reads and writes records at memory speed instead of re-serialising them.
+// Like every UTF-8 encoder, the frames carry a lone surrogate (which a JSON escape can put in a
+// string) as U+FFFD; the tokenizers and hashes already saw it that way.
 //
 // Frame: u32 body length, then the body: a kind byte, then the kind's fields. Numbers are u32 or
 // f64 (row numbers), strings a u32 byte length then UTF-8. A file ends with the end frame and a u32
