@@ -37,14 +37,15 @@ function isEmpty(o: object): boolean {
   return true;
 }
 
+const EMPTY = Buffer.alloc(0);
+
 /** Appends frames to a growing buffer; `take` hands the bytes over and starts a new one. */
 export class FrameWriter {
-  private buf: Buffer;
+  private buf: Buffer = EMPTY;
   private at = 0;
 
-  constructor(size = 1 << 16) {
-    this.buf = Buffer.allocUnsafeSlow(size);
-  }
+  /** `size`: the first buffer's size, allocated at the first write (and again after each `take`). */
+  constructor(private size = 1 << 16) {}
 
   get length(): number {
     return this.at;
@@ -52,7 +53,7 @@ export class FrameWriter {
 
   private room(n: number): void {
     if (this.at + n <= this.buf.length) return;
-    const bigger = Buffer.allocUnsafeSlow(Math.max(this.buf.length * 2, this.at + n));
+    const bigger = Buffer.allocUnsafeSlow(Math.max(this.buf.length * 2, this.size, this.at + n));
     this.buf.copy(bigger, 0, 0, this.at);
     this.buf = bigger;
   }
@@ -172,7 +173,9 @@ export class FrameWriter {
   /** The frames written so far, in memory of their own (never Node's shared pool, so they can be moved to a thread); the writer starts afresh. */
   take(): Buffer {
     const out = this.buf.subarray(0, this.at);
-    this.buf = Buffer.allocUnsafeSlow(Math.max(1 << 16, this.buf.length));
+    // The next buffer is made when it is written to: a writer often ends with its take.
+    this.size = Math.max(this.size, this.buf.length);
+    this.buf = EMPTY;
     this.at = 0;
     return out;
   }
@@ -219,7 +222,7 @@ class FrameReader {
   tokens(wide: boolean): Uint32Array {
     const n = this.u32();
     // Copied out (the read buffer is reused), widened by the typed-array copy from an aligned view.
-    const out = new Uint32Array(n);
+    const out = tokenArray(n);
     const size = n * (wide ? 4 : 2);
     let bytes: Uint8Array = this.b.subarray(this.at, this.at + size);
     if (bytes.byteOffset % (wide ? 4 : 2) !== 0) bytes = Uint8Array.prototype.slice.call(bytes);
@@ -234,6 +237,24 @@ class FrameReader {
 export interface ReadOptions {
   text?: boolean;
   records?: boolean;
+}
+
+// Token arrays are cut from slabs of 1 Mi ids: one allocation outside the heap per slab instead of
+// one per record, which would otherwise drive the collector (memory held outside the heap counts
+// towards its full collections). A slab lives as long as any record cut from it.
+const SLAB = 1 << 20;
+let slab = new Uint32Array(0);
+let slabAt = 0;
+
+function tokenArray(n: number): Uint32Array {
+  if (n > SLAB / 4) return new Uint32Array(n);
+  if (slabAt + n > slab.length) {
+    slab = new Uint32Array(SLAB);
+    slabAt = 0;
+  }
+  const out = slab.subarray(slabAt, slabAt + n);
+  slabAt += n;
+  return out;
 }
 
 function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
