@@ -11,6 +11,7 @@
 // copy of that frame's length, so its counters can be read from the last bytes alone.
 import { open } from "node:fs/promises";
 import type { DocRecord } from "../types.js";
+import { u32Array } from "../lib/u32-slab.js";
 import type { QuarantineEntry } from "../sources/source.js";
 
 // `i` is the row's place in its input file (0-based, bad rows counted): the order the ledger follows.
@@ -222,7 +223,7 @@ class FrameReader {
   tokens(wide: boolean): Uint32Array {
     const n = this.u32();
     // Copied out (the read buffer is reused), widened by the typed-array copy from an aligned view.
-    const out = tokenArray(n);
+    const out = u32Array(n);
     const size = n * (wide ? 4 : 2);
     let bytes: Uint8Array = this.b.subarray(this.at, this.at + size);
     if (bytes.byteOffset % (wide ? 4 : 2) !== 0) bytes = Uint8Array.prototype.slice.call(bytes);
@@ -237,24 +238,6 @@ class FrameReader {
 export interface ReadOptions {
   text?: boolean;
   records?: boolean;
-}
-
-// Token arrays are cut from slabs of 1 Mi ids: one allocation outside the heap per slab instead of
-// one per record, which would otherwise drive the collector (memory held outside the heap counts
-// towards its full collections). A slab lives as long as any record cut from it.
-const SLAB = 1 << 20;
-let slab = new Uint32Array(0);
-let slabAt = 0;
-
-function tokenArray(n: number): Uint32Array {
-  if (n > SLAB / 4) return new Uint32Array(n);
-  if (slabAt + n > slab.length) {
-    slab = new Uint32Array(SLAB);
-    slabAt = 0;
-  }
-  const out = slab.subarray(slabAt, slabAt + n);
-  slabAt += n;
-  return out;
 }
 
 function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {

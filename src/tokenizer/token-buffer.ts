@@ -1,5 +1,7 @@
 // A growable Uint32Array of token ids: the output of Encoder.encodeInto, reusable across documents.
 
+import { u32Array } from "../lib/u32-slab.js";
+
 export class TokenBuffer {
   /** Backing storage; ids live in [0, length). Replaced when it grows, so re-read after pushes. */
   ids: Uint32Array;
@@ -39,9 +41,11 @@ export class TokenBuffer {
     return this.ids.subarray(0, this.length);
   }
 
-  /** A copy of the ids that the caller owns. */
+  /** A copy of the ids that the caller owns (cut from a shared slab: see src/lib/u32-slab.ts). */
   toArray(): Uint32Array {
-    return this.ids.slice(0, this.length);
+    const out = u32Array(this.length);
+    out.set(this.ids.subarray(0, this.length));
+    return out;
   }
 
   private grow(min: number): void {
