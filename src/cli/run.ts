@@ -3,6 +3,7 @@ import type { CommandModule } from "yargs";
 import { loadPipeline, displayPath } from "../pipeline/load.js";
 import { runPipeline } from "../engine/run.js";
 import { compareLocks, lockOf, readLock, writeLock } from "../output/lock.js";
+import { checkTokenizerFiles } from "../stages/tokenize.js";
 import { SiftpackError } from "../errors.js";
 import { progressDisplay } from "./progress.js";
 import { formatSummary } from "./summary.js";
@@ -50,6 +51,8 @@ export const runCommand: CommandModule<object, Args> = {
     let finished = false;
     try {
       const pipeline = await loadPipeline(args.file, { outDir: args.out });
+      // Tokenizer files are checked before anything is written beside the output.
+      checkTokenizerFiles(pipeline.config.stages, pipeline.baseDir);
       const locked = args.lock ? await readLock(args.lock) : undefined;
       if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
       const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers, keepWork: args.keepWork });

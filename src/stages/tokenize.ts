@@ -1,5 +1,6 @@
 // tokenize: encodes each record's text to token ids with a byte-level BPE (named encoding, tokenizer file, or trained here), adding BOS/EOS.
-import { resolve } from "node:path";
+import { isAbsolute, relative, resolve } from "node:path";
+import { SiftpackError } from "../errors.js";
 import { defineStage, type Stage, type StageEnv } from "./stage.js";
 import { bool, field, list, num, obj, refine, str, type Infer, type Schema } from "../pipeline/schema.js";
 import { ENCODINGS, loadEncoding, loadTokenizerFile, MAX_TRAIN_VOCAB, TokenBuffer, trainingStage, type Encoder } from "../tokenizer/index.js";
@@ -65,11 +66,40 @@ export function tokenizeText(enc: Encoder, text: string, o: TokenizeOptions, buf
   return buf.toArray();
 }
 
-/** The encoder of a `tokenize` entry without `train`: a tokenizer file (relative to baseDir) or a named encoding. */
+/**
+ * The encoder of a `tokenize` entry without `train`: a tokenizer file (relative to baseDir) or a
+ * named encoding. A tokenizer file the pipeline names is part of the pipeline's configuration, so
+ * its problems (unreadable, not JSON, a bad entry) are SP_PIPELINE_KEY: exit 2, like a bad key.
+ */
 export function encoderFor(o: TokenizeOptions, baseDir: string): Encoder {
   if (o.train !== undefined) throw new Error("encoderFor: a trained tokenizer exists only after its stage has read the records");
-  if (o.tokenizer !== undefined) return loadTokenizerFile(resolve(baseDir, o.tokenizer), { eosToken: o.eos_token ?? DEFAULT_EOS });
+  if (o.tokenizer !== undefined) {
+    const path = resolve(baseDir, o.tokenizer);
+    try {
+      return loadTokenizerFile(path, { eosToken: o.eos_token ?? DEFAULT_EOS }, shownPath(path));
+    } catch (err) {
+      if (err instanceof SiftpackError && err.code === "SP_TOKENIZER") throw new SiftpackError("SP_PIPELINE_KEY", err.message, { cause: err });
+      throw err;
+    }
+  }
   return loadEncoding(o.encoding);
+}
+
+/**
+ * For `siftpack plan` (and anyone checking a pipeline before a build): loads, and so checks, the
+ * tokenizer file of each tokenize entry. Throws SP_PIPELINE_KEY naming the file and the entry.
+ */
+export function checkTokenizerFiles(stages: ReadonlyArray<{ name: string; options: unknown }>, baseDir: string): void {
+  for (const s of stages) {
+    const o = s.options as TokenizeOptions;
+    if (s.name === "tokenize" && o.tokenizer !== undefined && o.train === undefined) encoderFor(o, baseDir);
+  }
+}
+
+/** A path for messages: relative to the current directory when inside it (as the pipeline loader shows paths). */
+function shownPath(p: string): string {
+  const r = relative(process.cwd(), p);
+  return r && !r.startsWith("..") && !isAbsolute(r) ? r : p;
 }
 
 /**

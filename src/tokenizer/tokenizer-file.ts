@@ -6,12 +6,17 @@
 // decoder and post_processor are not used: decoding is byte-level by construction and the
 // tokenize stage adds its own BOS/EOS. Added tokens are never matched inside text (siftpack
 // encodes text that looks like a special token as plain text) — they only get ids and decode.
+// (The format as written by the Hugging Face tokenizers library, from memory; the reference test
+// in tests/tokenizer/tokenizer-file.test.ts reads the same files with its JavaScript port.)
+// Every id, token and merge is checked before use (tokenizer-check.ts): a file is input, and each
+// problem is one SP_TOKENIZER error naming the file and the entry.
 
 import { createHash } from "node:crypto";
 import { readFileSync, statSync } from "node:fs";
 import { basename } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { bytesToToken, tokenToBytes } from "./byte-level.js";
+import { bytesToToken } from "./byte-level.js";
+import { checkedModel, duplicateKey } from "./tokenizer-check.js";
 import { GPT2_PATTERN } from "./encodings.js";
 import { MergeBpeEncoder, type BpeModel } from "./merge-encoder.js";
 import { chainSplitters, patternSplitter, type Splitter } from "./splitter.js";
@@ -23,14 +28,17 @@ export interface TokenizerFileOptions {
 
 type Json = Record<string, unknown>;
 
-/** Loads the tokenizer file at `path` (synchronously, so a worker builds it the same way). Throws SP_TOKENIZER. */
 /**
  * A build asks for its tokenizer file several times (the dtype bound, cache keys per input file,
  * the manifest, each worker): parse it once per path, options and file size and time.
  */
 const loaded = new Map<string, MergeBpeEncoder>();
 
-export function loadTokenizerFile(path: string, options: TokenizerFileOptions = {}): MergeBpeEncoder {
+/**
+ * Loads the tokenizer file at `path` (synchronously, so a worker builds it the same way), checking
+ * every entry (tokenizer-check.ts). Throws SP_TOKENIZER naming the file as `shownAs` (default `path`).
+ */
+export function loadTokenizerFile(path: string, options: TokenizerFileOptions = {}, shownAs = path): MergeBpeEncoder {
   let key: string | undefined;
   try {
     const st = statSync(path);
@@ -40,27 +48,44 @@ export function loadTokenizerFile(path: string, options: TokenizerFileOptions = 
   }
   const hit = key && loaded.get(key);
   if (hit) return hit;
-  const enc = parseTokenizerFile(path, options);
+  const enc = parseTokenizerFile(path, options, shownAs);
   if (key) loaded.set(key, enc);
   return enc;
 }
 
-function parseTokenizerFile(path: string, options: TokenizerFileOptions): MergeBpeEncoder {
+function parseTokenizerFile(path: string, options: TokenizerFileOptions, shownAs: string): MergeBpeEncoder {
+  const bad = (what: string, cause?: unknown) => new SiftpackError("SP_TOKENIZER", `tokenizer file ${shownAs}: ${what}`, cause === undefined ? {} : { cause });
   let text: string;
   try {
     text = readFileSync(path, "utf8");
   } catch (err) {
-    throw new SiftpackError("SP_TOKENIZER", `tokenizer file ${path}: ${describeSystemError(err)}`, { cause: err });
+    throw bad(describeSystemError(err), err);
   }
   let json: unknown;
   try {
     json = JSON.parse(text);
   } catch (err) {
-    throw new SiftpackError("SP_TOKENIZER", `tokenizer file ${path}: not JSON: ${(err as Error).message}`, { cause: err });
+    throw bad(`not JSON: ${jsonProblem(err as Error, text)}`, err);
   }
+  const twice = duplicateKey(text);
+  if (twice) throw bad(twice.at === "model.vocab" ? `vocab entry ${JSON.stringify(twice.key)} is listed twice` : `key ${JSON.stringify(twice.key)} appears twice in ${twice.at}`);
   // The name carries a digest of the file, so a manifest or cache key naming it changes with its content.
   const digest = createHash("sha256").update(text).digest("hex").slice(0, 16);
-  return tokenizerFromJson(json, path, `${basename(path)}@${digest}`, options);
+  return tokenizerFromJson(json, shownAs, `${basename(path)}@${digest}`, options);
+}
+
+/**
+ * JSON.parse's complaint on one line: V8 quotes the text around the fault, newlines and all, or
+ * gives a character position; we drop the quote and turn a position into line and column.
+ */
+function jsonProblem(err: Error, text: string): string {
+  let m = err.message.replace(/, ".*" is not valid JSON$/s, "");
+  m = m.replace(/ in JSON at position (\d+)(?: \(line \d+ column \d+\))?$/, (_all, pos: string) => {
+    const before = text.slice(0, Number(pos));
+    const line = before.split("\n").length;
+    return ` at line ${line}, column ${Number(pos) - before.lastIndexOf("\n")}`;
+  });
+  return m.replace(/[\u0000-\u001f\u007f]/g, (c) => JSON.stringify(c).slice(1, -1));
 }
 
 /** Builds an encoder from a parsed tokenizer file; `label` names the file in messages. */
@@ -80,35 +105,10 @@ export function tokenizerFromJson(json: unknown, label: string, name: string, op
 
   const vocab = model.vocab;
   if (!isObj(vocab)) throw bad("model.vocab must map tokens to ids");
-  const tokens: (Uint8Array | undefined)[] = [];
-  const idOf = new Map<string, number>();
-  for (const [tok, id] of Object.entries(vocab)) {
-    if (!Number.isInteger(id) || (id as number) < 0) throw bad(`token ${JSON.stringify(tok)} has id ${JSON.stringify(id)}`);
-    const bytes = tokenToBytes(tok);
-    if (bytes === undefined) throw bad(`token ${JSON.stringify(tok)} is not byte-level (a character outside the byte map)`);
-    if (tokens[id as number] !== undefined) throw bad(`id ${String(id)} is given to two tokens`);
-    tokens[id as number] = bytes;
-    idOf.set(tok, id as number);
-  }
   if (!Array.isArray(model.merges)) throw bad("model.merges must be a list");
-  const merges: BpeModel["merges"] = model.merges.map((m, i) => {
-    const pair = typeof m === "string" ? splitMerge(m) : m;
-    if (!Array.isArray(pair) || pair.length !== 2 || typeof pair[0] !== "string" || typeof pair[1] !== "string") throw bad(`merge ${i} is not "a b" or [a, b]: ${JSON.stringify(m)}`);
-    const [a, b] = pair as [string, string];
-    const ia = idOf.get(a);
-    const ib = idOf.get(b);
-    const ir = idOf.get(a + b);
-    if (ia === undefined || ib === undefined || ir === undefined) throw bad(`merge ${i} ${JSON.stringify(pair)} uses a token missing from the vocab`);
-    return [ia, ib, ir];
-  });
-
-  const specialTokens: Record<string, number> = {};
   const added = json.added_tokens ?? [];
   if (!Array.isArray(added)) throw bad("added_tokens must be a list");
-  for (const t of added) {
-    if (!isObj(t) || typeof t.content !== "string" || !Number.isInteger(t.id)) throw bad(`bad added token ${JSON.stringify(t)}`);
-    specialTokens[t.content] = t.id as number;
-  }
+  const { tokens, merges, specialTokens } = checkedModel(vocab, model.merges, added, bad);
   const eosToken = options.eosToken ?? "<|endoftext|>";
   if (specialTokens[eosToken] === undefined) {
     const known = Object.keys(specialTokens);
@@ -122,12 +122,6 @@ export function tokenizerFromJson(json: unknown, label: string, name: string, op
     wholePieceFirst: model.ignore_merges === true,
     prefixSpace: pre.prefixSpace,
   });
-}
-
-/** "a b" → [a, b]; byte-level tokens hold no space (it is shown as "Ġ"), so the split is unambiguous. */
-function splitMerge(m: string): [string, string] | undefined {
-  const parts = m.split(" ");
-  return parts.length === 2 ? [parts[0], parts[1]] : undefined;
 }
 
 function preTokenizer(p: unknown, bad: (what: string) => SiftpackError): { splitter: Splitter; prefixSpace: boolean } {
@@ -152,7 +146,13 @@ function preTokenizer(p: unknown, bad: (what: string) => SiftpackError): { split
       const source = typeof pat.Regex === "string" ? pat.Regex : undefined;
       if (source === undefined) throw bad(`unsupported pre_tokenizer Split pattern ${JSON.stringify(s.pattern)} (only {"Regex": …})`);
       if (s.behavior !== "Isolated" || s.invert === true) throw bad(`unsupported pre_tokenizer Split behavior ${JSON.stringify(s.behavior)}${s.invert === true ? " inverted" : ""} (only Isolated, not inverted)`);
-      splitters.push(patternSplitter(source));
+      try {
+        splitters.push(patternSplitter(source));
+      } catch (err) {
+        // Our translation's message, or the RegExp engine's without its quote of the (long) translated source.
+        const why = err instanceof SiftpackError ? err.message : `not a valid regular expression: ${(err as Error).message.replace(/^Invalid regular expression: \/.*\/[a-z]*: /s, "")}`;
+        throw bad(`pre_tokenizer Split pattern ${JSON.stringify(source)}: ${why}`);
+      }
     } else {
       throw bad(`unsupported pre_tokenizer ${describeType(s)}; expected ByteLevel or Split`);
     }
