@@ -1,4 +1,6 @@
 // One error class for everything siftpack reports to a user: a stable code, an exit code, the cause.
+import { accessSync, constants, existsSync } from "node:fs";
+import { dirname } from "node:path";
 
 /** Stable error codes; the table-driven test in tests/errors.test.ts lists them all. */
 export const ERROR_CODES = {
@@ -39,10 +41,29 @@ export class SiftpackError extends Error {
   }
 }
 
+/**
+ * The error's code, except that Node's recursive mkdir reports ENOENT where the folder could not be
+ * made because its file system is read-only (or not writable): the deepest existing folder above
+ * says which, by access(2), which touches nothing.
+ */
+export function systemErrorCode(err: unknown): string | undefined {
+  const e = err as NodeJS.ErrnoException;
+  if (e?.code !== "ENOENT" || e.syscall !== "mkdir" || typeof e.path !== "string") return e?.code;
+  let dir = dirname(e.path);
+  while (!existsSync(dir) && dirname(dir) !== dir) dir = dirname(dir);
+  try {
+    accessSync(dir, constants.W_OK);
+    return e.code;
+  } catch (probe) {
+    const code = (probe as NodeJS.ErrnoException).code;
+    return code === "EROFS" || code === "EACCES" ? code : e.code;
+  }
+}
+
 /** A one-line description of a system error such as ENOENT, for messages. */
 export function describeSystemError(err: unknown): string {
   const e = err as NodeJS.ErrnoException;
-  switch (e?.code) {
+  switch (systemErrorCode(err)) {
     case "ENOENT":
       return "no such file or directory";
     case "EACCES":
@@ -56,7 +77,50 @@ export function describeSystemError(err: unknown): string {
       return "a path component is not a directory";
     case "EROFS":
       return "read-only file system";
+    case "EDQUOT":
+      return "disk quota exceeded";
+    case "EMFILE":
+    case "ENFILE":
+      return "too many open files";
+    case "EIO":
+      return "input/output error";
     default:
       return e?.message ?? String(err);
   }
+}
+
+/** A failure of the machine or the file system (a Node errno error such as ENOSPC), not a bug. */
+export function isSystemError(err: unknown): err is NodeJS.ErrnoException {
+  const code = (err as NodeJS.ErrnoException)?.code;
+  return err instanceof Error && typeof code === "string" && /^E[A-Z0-9]+$/.test(code);
+}
+
+/** What a person can do about a system error, for the end of its message; undefined when nothing general applies. */
+export function systemErrorHint(err: unknown): string | undefined {
+  switch (systemErrorCode(err)) {
+    case "ENOSPC":
+    case "EDQUOT":
+      return "free some space there, or build elsewhere with --out";
+    case "EACCES":
+    case "EPERM":
+      return "check the permissions there, or build elsewhere with --out";
+    case "EROFS":
+      return "build on a writable file system with --out";
+    case "EMFILE":
+    case "ENFILE":
+      return "raise the open-file limit (ulimit -n) or use fewer --workers";
+    case "ENOENT":
+      return "check that it exists (was it moved or removed during the run?) and run again";
+    default:
+      return undefined;
+  }
+}
+
+/**
+ * One line for a system error that reached the top without a SiftpackError around it: the path
+ * it concerns, plain words, and what to do.
+ */
+export function systemErrorLine(err: NodeJS.ErrnoException): string {
+  const hint = systemErrorHint(err);
+  return `${err.path ? `${err.path}: ` : ""}${describeSystemError(err)}${hint ? `; ${hint}` : ""}`;
 }

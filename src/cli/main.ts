@@ -1,6 +1,6 @@
 // The command line: parses arguments with yargs, runs one command, maps errors to exit codes.
 import yargs from "yargs";
-import { SiftpackError } from "../errors.js";
+import { SiftpackError, isSystemError, systemErrorCode, systemErrorHint, systemErrorLine } from "../errors.js";
 import { runCommand } from "./run.js";
 import { planCommand } from "./plan.js";
 import { verifyCommand } from "./verify.js";
@@ -11,10 +11,18 @@ import { toolVersion } from "../output/manifest.js";
 /** Prints an error for a person: one line, then its details; a stack only with SIFTPACK_DEBUG=1. */
 export function reportError(err: unknown): number {
   if (err instanceof SiftpackError) {
-    process.stderr.write(`siftpack: error: ${err.message}\n`);
+    // A message built around a full disk or a denied write says what to do, once (a missing file's message says which).
+    const hint = isSystemError(err.cause) && systemErrorCode(err.cause) !== "ENOENT" ? systemErrorHint(err.cause) : undefined;
+    process.stderr.write(`siftpack: error: ${err.message}${hint && !err.message.includes(hint) ? `; ${hint}` : ""}\n`);
     for (const d of err.details) process.stderr.write(`  ${d}\n`);
     if (process.env.SIFTPACK_DEBUG && err.cause) process.stderr.write(`${(err.cause as Error).stack ?? err.cause}\n`);
     return err.exitCode;
+  }
+  // A fault of the machine (a full disk, a folder made read-only) that no message was built around: still not a bug.
+  if (isSystemError(err)) {
+    process.stderr.write(`siftpack: error: ${systemErrorLine(err)}\n`);
+    if (process.env.SIFTPACK_DEBUG) process.stderr.write(`${err.stack}\n`);
+    return 1;
   }
   const e = err as Error;
   process.stderr.write(`siftpack: internal error: ${e?.message ?? String(err)} (set SIFTPACK_DEBUG=1 for the stack; please report it)\n`);

@@ -1,5 +1,5 @@
 // Runs a loaded pipeline on this machine: the same phases a cluster runs as tasks (src/engine/).
-import { basename, dirname, join } from "node:path";
+import { basename, dirname, join, resolve } from "node:path";
 import { rm } from "node:fs/promises";
 import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
 import type { Manifest } from "../output/manifest.js";
@@ -8,8 +8,10 @@ import type { LoadedPipeline } from "../pipeline/load.js";
 import type { PhaseTiming, ProgressListener } from "./progress.js";
 import { planPhases } from "./plan.js";
 import { runTask } from "./task.js";
-import { unitsOf } from "./unit-io.js";
-import { prepareStaging } from "../output/output-dir.js";
+import { unitsOf, type Unit } from "./unit-io.js";
+import { checkOutputPlace, prepareStaging } from "../output/output-dir.js";
+import { acquireRunLock } from "../output/run-lock.js";
+import { describeSystemError } from "../errors.js";
 
 export interface RunOptions {
   log: Logger;
@@ -35,9 +37,22 @@ export interface RunResult {
 /**
  * Builds on this machine by running the task plan's phases in order, one task each (the result
  * does not depend on the number of tasks), every task using the worker pool. The work directory
- * beside the output is removed once the build is published.
+ * beside the output is removed once the build is published. One run at a time per output: a
+ * second one refuses while the first holds the lock beside the output.
  */
 export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<RunResult> {
+  const units = await unitsOf(p);
+  // Never an output folder that would take the pipeline file or an input with it.
+  await checkOutputPlace(p.outDir, p.file, units.map((u) => resolve(p.baseDir, u.path)));
+  const lock = await acquireRunLock(p.outDir, opts.log);
+  try {
+    return await runLocked(p, opts, units);
+  } finally {
+    await lock.release();
+  }
+}
+
+async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Promise<RunResult> {
   const plan = planPhases(p, 1);
   plan.workDir = join(dirname(p.outDir), `.${basename(p.outDir)}.run`);
   // The output's checks first (a path under a file, a directory that is no build): clear one-line errors.
@@ -45,9 +60,9 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   await rm(plan.workDir, { recursive: true, force: true });
   const cache = new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
-  const units = await unitsOf(p);
   const finished: PhaseTiming[] = [];
   let manifest: Manifest | undefined;
+  let failed = true;
   try {
     for (const phase of plan.phases) {
       for (let i = 0; i < phase.tasks; i++) {
@@ -55,11 +70,17 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
         manifest = r.manifest ?? manifest;
       }
     }
+    failed = false;
   } finally {
     // Failed or not, the phases' files go (the error was reported; the cache keeps what was read).
-    if (!opts.keepWork) await rm(plan.workDir, { recursive: true, force: true });
+    // A folder that cannot be removed must not hide the build's own error; the next run removes it.
+    if (!opts.keepWork)
+      await rm(plan.workDir, { recursive: true, force: true }).catch((err) =>
+        opts.log[failed ? "debug" : "warn"]({ workDir: plan.workDir }, `cannot remove the work directory ${plan.workDir}: ${describeSystemError(err)}; the next run removes it`),
+      );
   }
-  await cache.prune();
+  // The build is published: a cache entry that cannot be removed is worth a warning, not a failure.
+  await cache.prune().catch((err) => opts.log.warn({ cache: cache.dir }, `cannot prune the cache ${cache.dir}: ${describeSystemError(err)}`));
   // The summary says it on stdout; here for those who read the debug log.
   opts.log.debug({ cache: cache.report }, "cache");
   return { outDir: p.outDir, manifest: manifest!, cache: cache.report, phases: finished };

@@ -1,7 +1,7 @@
 // Reads a pipeline file (YAML, or JSON), validates it and reports every problem with file:line:col.
 import { readFile } from "node:fs/promises";
 import { dirname, isAbsolute, resolve, relative } from "node:path";
-import { isMap, isSeq, LineCounter, parseDocument, type Document, type Node } from "yaml";
+import { isMap, isSeq, LineCounter, parseDocument, visit, type Document, type Node } from "yaml";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { checkPipelineRules, pipelineSchema, type PipelineConfig } from "./config.js";
 import type { Issue, Path } from "./schema.js";
@@ -64,7 +64,7 @@ export function parsePipeline(text: string, file: string): PipelineConfig {
     });
     throw new SiftpackError("SP_PIPELINE_FILE", `${file}: not valid YAML or JSON`, { details: lines });
   }
-  const value = doc.toJS({ maxAliasCount: 100 });
+  const value = toValue(doc, lc, file);
   const issues: Issue[] = [];
   const config = pipelineSchema.check(value, [], issues);
   if (issues.length === 0) checkPipelineRules(config, issues);
@@ -75,6 +75,32 @@ export function parsePipeline(text: string, file: string): PipelineConfig {
     });
   }
   return config;
+}
+
+/** Aliases may repeat a value, but not nest into an exponentially large document (an "alias bomb"). */
+const MAX_ALIAS_COUNT = 100;
+
+/** The document as plain values; an alias bomb is a fault of the file (exit 2), told at its first alias. */
+function toValue(doc: Document, lc: LineCounter, file: string): unknown {
+  try {
+    return doc.toJS({ maxAliasCount: MAX_ALIAS_COUNT });
+  } catch (err) {
+    // yaml throws a ReferenceError ("Excessive alias count …") when aliases expand past the limit.
+    if (!(err instanceof ReferenceError) || !/alias/i.test(err.message)) throw err;
+    let first: { offset: number; name: string } | undefined;
+    visit(doc, {
+      Alias(_, node) {
+        first = { offset: node.range?.[0] ?? 0, name: node.source };
+        return visit.BREAK;
+      },
+    });
+    const { line, col } = lc.linePos(first?.offset ?? 0);
+    throw new SiftpackError(
+      "SP_PIPELINE_FILE",
+      `${file}:${line}:${col}: aliases${first ? ` (*${first.name} and others)` : ""} expand into more than ${MAX_ALIAS_COUNT} copies of their values; write the values out instead of nesting aliases`,
+      { cause: err },
+    );
+  }
 }
 
 export async function loadPipeline(file: string, overrides: { outDir?: string } = {}): Promise<LoadedPipeline> {

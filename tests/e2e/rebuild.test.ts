@@ -93,7 +93,7 @@ describe("a full disk", () => {
     // --no-cache: every unit is computed again (a cache hit only adds a second name for a file).
     const second = siftpack(["run", "pipelines/demo.yaml", "--out", out, "--no-cache"]);
     expect(second.code).toBe(1);
-    expect(second.stderr).toMatch(/^siftpack: error: .*no space left on device\n$/);
+    expect(second.stderr).toMatch(/^siftpack: error: .*no space left on device; free some space there, or build elsewhere with --out\n$/);
     expect(outputFiles(out)).toEqual(before);
     expect(siftpack(["verify", out]).code).toBe(0);
     expect(existsSync(join(mnt, ".demo.partial"))).toBe(true);
