@@ -4,6 +4,7 @@ import { stringify } from "yaml";
 import { loadPipeline, displayPath } from "../pipeline/load.js";
 import { listFiles } from "../sources/source.js";
 import { STAGES } from "../stages/index.js";
+import { checkTokenizerFiles } from "../stages/tokenize.js";
 import { dirname, join, resolve, sep } from "node:path";
 import { fileURLToPath } from "node:url";
 import { planPhases } from "../engine/plan.js";
@@ -11,6 +12,8 @@ import { unitsOf } from "../engine/unit-io.js";
 import { slurmFiles } from "../launch/emit-slurm.js";
 import { kubernetesFiles } from "../launch/emit-kubernetes.js";
 import { writeLaunchFiles } from "../launch/launch-file.js";
+import type { StageEntry } from "../pipeline/config.js";
+import type { Issue } from "../pipeline/schema.js";
 
 interface Args {
   file: string;
@@ -37,11 +40,34 @@ export function commonDir(dirs: string[]): string {
   return parts[0].slice(0, n).join(sep) || sep;
 }
 
+/**
+ * A stage's options with what its `explain` adds, split in two: keys the stage's schema accepts
+ * (a default made explicit, such as best-fit's buffer_docs) join the settings; the rest (memory
+ * bounds, probabilities) are figures derived from them, which a pipeline file may not hold.
+ */
+export function explainedStage(s: StageEntry): { settings: Record<string, unknown>; figures: Record<string, unknown> } {
+  const def = STAGES[s.name];
+  const issuesOf = (o: unknown) => {
+    const issues: Issue[] = [];
+    def.options.check(o, [], issues);
+    return issues.length;
+  };
+  const settings: Record<string, unknown> = { ...s.options };
+  const figures: Record<string, unknown> = {};
+  const before = issuesOf(settings);
+  for (const [k, v] of Object.entries(def.explain?.(s.options) ?? {})) {
+    if (issuesOf({ ...settings, [k]: v }) === before) settings[k] = v;
+    else figures[k] = v;
+  }
+  return { settings, figures };
+}
+
 /** How the nodes start siftpack: this installation's node and bin script (a shared install, or the same path in the image). */
 const selfCommand = () => [process.execPath, fileURLToPath(new URL("../../bin/siftpack.js", import.meta.url))];
 
 async function taskPlanOutput(args: Args): Promise<void> {
   const p = await loadPipeline(args.file);
+  checkTokenizerFiles(p.config.stages, p.baseDir);
   const plan = planPhases(p);
   const units = await unitsOf(p);
   const info = { pipeline: plan.pipeline, workDir: plan.workDir, outDir: plan.outDir, units: units.length, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) };
@@ -96,10 +122,14 @@ export const planCommand: CommandModule<object, Args> = {
   handler: async (args) => {
     if (args.tasks || args.emit) return taskPlanOutput(args);
     const p = await loadPipeline(args.file);
+    checkTokenizerFiles(p.config.stages, p.baseDir);
     const files: Record<string, string[]> = {};
     for (const s of p.config.sources) files[s.name] = await listFiles(s, p.baseDir);
-    const stages = p.config.stages.map((s) => ({ [s.name]: { ...s.options, ...(STAGES[s.name].explain?.(s.options) ?? {}) } }));
-    const plan = { pipeline: displayPath(p.file), hash: p.hash, ...p.config, output: { ...p.config.output, resolved_dir: displayPath(p.outDir) }, stages, inputs: files };
+    const explained = p.config.stages.map(explainedStage);
+    const stages = p.config.stages.map((s, i) => ({ [s.name]: explained[i].settings }));
+    // Derived figures apart from the settings, so that the printed settings are a valid pipeline file.
+    const derived = p.config.stages.map((s, i) => ({ stage: i + 1, name: s.name, ...explained[i].figures })).filter((d) => Object.keys(d).length > 2);
+    const plan = { pipeline: displayPath(p.file), hash: p.hash, ...p.config, output: { ...p.config.output, resolved_dir: displayPath(p.outDir) }, stages, derived, inputs: files };
     if (args.json) {
       process.stdout.write(JSON.stringify(plan, null, 2) + "\n");
       return;
@@ -107,6 +137,10 @@ export const planCommand: CommandModule<object, Args> = {
     let out = `# plan for ${plan.pipeline} (pipeline hash ${p.hash}); output to ${plan.output.resolved_dir}\n`;
     out += p.config.stages.map((s, i) => `# ${i + 1}. ${s.name}: ${STAGES[s.name].summary}`).join("\n") + "\n";
     out += stringify({ siftpack: 1, seed: p.config.seed, max_bad_fraction: p.config.max_bad_fraction, sources: p.config.sources, stages, output: p.config.output });
+    if (derived.length > 0) {
+      out += "# derived from the settings above (figures, not keys of a pipeline file):\n";
+      out += stringify(Object.fromEntries(derived.map(({ stage, name, ...f }) => [`${stage}. ${name}`, f]))).replace(/^/gm, "#   ").replace(/#   $/, "");
+    }
     out += "# input files\n";
     for (const [name, list] of Object.entries(files)) out += `#   ${name}: ${list.length} file${list.length === 1 ? "" : "s"}${list.length ? ` (${list.slice(0, 3).join(", ")}${list.length > 3 ? ", …" : ""})` : ""}\n`;
     process.stdout.write(out);

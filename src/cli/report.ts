@@ -1,14 +1,70 @@
 // `siftpack report DIR [--out FILE]`: writes one self-contained HTML page about a build.
-import { writeFile } from "node:fs/promises";
-import { join } from "node:path";
+import { open, readFile, realpath, stat, writeFile } from "node:fs/promises";
+import { basename, dirname, join, resolve } from "node:path";
 import type { CommandModule } from "yargs";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { buildReport } from "../report/build.js";
+import { FORMAT } from "../output/manifest.js";
 
 interface Args {
   dir: string;
   out?: string;
   excerpts?: boolean;
+}
+
+/** The report's default name in the build directory: the one file besides the build's own that `verify` accepts there. */
+export const REPORT_NAME = "report.html";
+
+/** What every report starts with (src/report/page.ts): the doctype, and within the head the generator line. */
+const REPORT_START = "<!doctype html>";
+const REPORT_GENERATOR = '<meta name="generator" content="siftpack ';
+
+/** Whether `path` is a report siftpack wrote: it starts with the page's doctype and names siftpack as generator in its head. */
+export async function isSiftpackReport(path: string): Promise<boolean> {
+  let fh;
+  try {
+    fh = await open(path, "r");
+    const buf = Buffer.alloc(2048);
+    const { bytesRead } = await fh.read(buf, 0, buf.length, 0);
+    const head = buf.subarray(0, bytesRead).toString("utf8");
+    // The generator line comes before the title and style, well within the first 2 KiB.
+    return head.startsWith(REPORT_START) && head.includes(REPORT_GENERATOR);
+  } catch {
+    return false;
+  } finally {
+    await fh?.close();
+  }
+}
+
+/** The nearest directory holding `path` (at any depth) whose manifest.json is a siftpack manifest. */
+async function buildDirAbove(path: string): Promise<string | undefined> {
+  for (let dir = dirname(path); ; dir = dirname(dir)) {
+    const text = await readFile(join(dir, "manifest.json"), "utf8").catch(() => undefined);
+    if (text !== undefined) {
+      try {
+        if (JSON.parse(text)?.format === FORMAT) return dir;
+      } catch {
+        // Not JSON: some other tool's file of that name.
+      }
+    }
+    if (dirname(dir) === dir) return undefined;
+  }
+}
+
+/**
+ * The rule for where a report may go: an existing file is replaced only when it is an earlier
+ * siftpack report, and inside a build directory only DIR/report.html may be written, since any
+ * other file there is one `siftpack verify` reports as not in the manifest.
+ */
+export async function checkReportTarget(out: string): Promise<void> {
+  const st = await stat(out).catch((err) => (err.code === "ENOENT" ? undefined : Promise.reject(err)));
+  if (st && !st.isFile()) throw new SiftpackError("SP_OUTPUT", `refusing to write the report to ${out}: it exists and is not a file`);
+  if (st && !(await isSiftpackReport(out))) throw new SiftpackError("SP_OUTPUT", `refusing to overwrite ${out}: it is not a report written by siftpack (only an earlier report is replaced)`);
+  // Where the file really is: a link into a build directory counts as that directory.
+  const real = st ? await realpath(out) : join(await realpath(dirname(resolve(out))).catch(() => dirname(resolve(out))), basename(out));
+  const build = await buildDirAbove(real);
+  if (build && real !== join(build, REPORT_NAME))
+    throw new SiftpackError("SP_OUTPUT", `refusing to write ${out}: it is inside the build directory ${build}, where only ${REPORT_NAME} may be added (siftpack verify reports any other file)`);
 }
 
 export const reportCommand: CommandModule<object, Args> = {
@@ -17,10 +73,14 @@ export const reportCommand: CommandModule<object, Args> = {
   builder: (y) =>
     y
       .positional("dir", { type: "string", demandOption: true, describe: "build directory (holds manifest.json)" })
-      .option("out", { type: "string", describe: "HTML file to write (default: DIR/report.html)" })
-      .option("excerpts", { type: "boolean", default: true, describe: "quote the largest near-duplicate clusters from the inputs (--no-excerpts: ids only)" }),
+      .option("out", { type: "string", describe: `HTML file to write (default: DIR/${REPORT_NAME}); an existing file is replaced only if it is an earlier report` })
+      .option("excerpts", { type: "boolean", default: true, describe: "quote input text: the largest near-duplicate clusters and the errors of unreadable records (--no-excerpts: ids, files and line numbers only)" }),
   handler: async (args) => {
-    const out = args.out ?? join(args.dir, "report.html");
+    const out = args.out ?? join(args.dir, REPORT_NAME);
+    await checkReportTarget(out).catch((err) => {
+      if (err instanceof SiftpackError) throw err;
+      throw new SiftpackError("SP_OUTPUT", `${out}: cannot check the report's target: ${describeSystemError(err)}`, { cause: err });
+    });
     const html = await buildReport(args.dir, args.dir, { excerpts: args.excerpts });
     await writeFile(out, html).catch((err) => {
       throw new SiftpackError("SP_OUTPUT", `${out}: cannot write the report: ${describeSystemError(err)}`, { cause: err });

@@ -1,10 +1,39 @@
-// `siftpack verify DIR [--inputs]`: re-hashes every output file (and optionally every input) against the manifest.
+// `siftpack verify DIR [--inputs]`: re-hashes every output file (and optionally every input) against the
+// manifest, checks the manifest's own hash, and names every file in DIR that the manifest does not list.
+import { readdir } from "node:fs/promises";
 import { join, resolve } from "node:path";
 import type { CommandModule } from "yargs";
-import { readManifest, verifyOutput, type VerifyProblem } from "../output/manifest.js";
+import { readManifest, verifyOutput, type Manifest, type VerifyProblem } from "../output/manifest.js";
 import { readBuildInfo } from "../output/build-info.js";
 import { hashFile } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
+import { isSiftpackReport, REPORT_NAME } from "./report.js";
+
+/**
+ * Files siftpack writes into a build directory besides those the manifest lists: the manifest
+ * itself, build-info.json (times and paths, unhashed on purpose) and the default report of
+ * `siftpack report` (accepted only when it is one). Only at the top of the directory.
+ */
+const OWN_FILES = ["manifest.json", "build-info.json"];
+
+/** Every entry under `dir` that is neither listed in the manifest nor one of siftpack's own files, in path order. */
+export async function unlistedFiles(dir: string, m: Manifest): Promise<VerifyProblem[]> {
+  const listed = new Set(m.files.map((f) => f.path));
+  const found: VerifyProblem[] = [];
+  const walk = async (rel: string): Promise<void> => {
+    const entries = await readdir(join(dir, rel), { withFileTypes: true });
+    entries.sort((a, b) => (a.name < b.name ? -1 : a.name > b.name ? 1 : 0));
+    for (const e of entries) {
+      const path = rel ? `${rel}/${e.name}` : e.name;
+      if (e.isDirectory()) await walk(path);
+      else if (listed.has(path) || (!rel && OWN_FILES.includes(path))) continue;
+      else if (!rel && path === REPORT_NAME && e.isFile() && (await isSiftpackReport(join(dir, path)))) continue;
+      else found.push({ path, problem: `not in the manifest: a ${e.isFile() ? "file" : e.isSymbolicLink() ? "symbolic link" : "special file"} the build did not write` });
+    }
+  };
+  await walk("");
+  return found;
+}
 
 interface Args {
   dir: string;
@@ -25,6 +54,9 @@ export const verifyCommand: CommandModule<object, Args> = {
   handler: async (args) => {
     const m = await readManifest(args.dir);
     const problems = await verifyOutput(args.dir, m);
+    const unlisted = await unlistedFiles(args.dir, m).catch((err) => {
+      throw new SiftpackError("SP_VERIFY", `${args.dir}: cannot list the build directory: ${describeSystemError(err)}`, { cause: err });
+    });
     let inputsChecked = 0;
     if (args.inputs) {
       const base = args.base ? resolve(args.base) : (await readBuildInfo(args.dir))?.base_dir;
@@ -38,9 +70,16 @@ export const verifyCommand: CommandModule<object, Args> = {
       }
     }
     const checked = m.files.length + inputsChecked;
-    if (args.json) process.stdout.write(JSON.stringify({ ok: problems.length === 0, files: m.files.length, inputs: inputsChecked, problems }, null, 2) + "\n");
+    // Unlisted files last, so that the mismatches come first in the list.
+    problems.push(...unlisted);
+    if (args.json) process.stdout.write(JSON.stringify({ ok: problems.length === 0, files: m.files.length, inputs: inputsChecked, unlisted: unlisted.length, problems }, null, 2) + "\n");
     if (problems.length > 0) {
-      throw new SiftpackError("SP_VERIFY", `${problems.length} of ${checked} files do not match the manifest in ${args.dir}`, {
+      // Files counted once however many problems they have (manifest.json can have two); manifest.json counts as a file checked.
+      const mismatched = new Set(problems.slice(0, problems.length - unlisted.length).map((p) => p.path)).size;
+      const parts = [];
+      if (mismatched > 0) parts.push(`${mismatched} of ${checked + 1} files do not match the manifest`);
+      if (unlisted.length > 0) parts.push(`${unlisted.length} file${unlisted.length === 1 ? " is" : "s are"} not in the manifest`);
+      throw new SiftpackError("SP_VERIFY", `${args.dir}: ${parts.join("; ")}`, {
         details: problems.map((p) => `${p.path}: ${p.problem}`),
       });
     }

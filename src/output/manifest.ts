@@ -1,10 +1,10 @@
-// manifest.json: what was built from what, with counts and a checksum of every output file.
+// manifest.json: what was built from what, with counts, a checksum of every output file and one of the manifest itself.
 import { readFile } from "node:fs/promises";
 import { basename, dirname, join } from "node:path";
 import { existsSync, readFileSync } from "node:fs";
 import { createRequire } from "node:module";
 import { writeFileAtomic } from "./atomic.js";
-import { hashFile, hex64, xxh64String } from "../lib/hash.js";
+import { hashFile, hex64, loadHasher, xxh64String } from "../lib/hash.js";
 import { canonicalJson } from "../lib/canonical-json.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { Dtype } from "./npy.js";
@@ -31,6 +31,12 @@ export interface Manifest {
   files: WrittenFile[];
   /** XXH64 over the canonical JSON of `files`: one value that changes when any output byte does. */
   build_hash: string;
+  /**
+   * XXH64 over the canonical JSON of this manifest without this key: covers the manifest's own
+   * figures (counts, splits, settings), which no file hash does. It guards against edits and
+   * damage, not against someone who recomputes it.
+   */
+  manifest_xxh64?: string;
   /** Figures added by analyzers (e.g. overlap between splits). */
   [analysis: string]: unknown;
 }
@@ -87,7 +93,7 @@ export async function writeManifest(dir: string, m: ManifestInput): Promise<Mani
   for (const name of ["ledger.jsonl.gz", "quarantine.jsonl", ...(m.extraFiles ?? [])]) files.push({ path: name, ...(await hashFile(join(dir, name))) });
   files.sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
   const resolved = { ...m.pipeline.config, output: { shard_blocks: m.pipeline.config.output.shard_blocks }, cluster: undefined };
-  const manifest: Manifest = {
+  const manifest = {
     format: FORMAT,
     tool: {
       name: "siftpack",
@@ -117,8 +123,16 @@ export async function writeManifest(dir: string, m: ManifestInput): Promise<Mani
     files,
     build_hash: hex64(xxh64String(canonicalJson(files))),
   };
-  await writeFileAtomic(join(dir, "manifest.json"), [Buffer.from(JSON.stringify(manifest, null, 2) + "\n")]);
-  return manifest;
+  // Hashed as it will be read back (JSON drops undefined values), so verify recomputes the same value.
+  const sealed: Manifest = { ...manifest, manifest_xxh64: manifestHash(JSON.parse(JSON.stringify(manifest))) };
+  await writeFileAtomic(join(dir, "manifest.json"), [Buffer.from(JSON.stringify(sealed, null, 2) + "\n")]);
+  return sealed;
+}
+
+/** XXH64 of a parsed manifest's canonical JSON, `manifest_xxh64` left out (the hasher must be loaded). */
+export function manifestHash(m: Record<string, unknown>): string {
+  const { manifest_xxh64: _, ...rest } = m;
+  return hex64(xxh64String(canonicalJson(rest)));
 }
 
 export async function readManifest(dir: string): Promise<Manifest> {
@@ -147,6 +161,13 @@ export interface VerifyProblem {
 /** Re-hashes every file listed in the manifest; returns the mismatches (empty when all is well). */
 export async function verifyOutput(dir: string, m: Manifest): Promise<VerifyProblem[]> {
   const problems: VerifyProblem[] = [];
+  await loadHasher();
+  // First the manifest itself: an edited count or setting changes no file hash, only this one.
+  if (typeof m.manifest_xxh64 !== "string") problems.push({ path: "manifest.json", problem: "has no manifest_xxh64, so its own figures cannot be checked (the key was removed, or an older siftpack wrote the manifest)" });
+  else {
+    const own = manifestHash(m);
+    if (own !== m.manifest_xxh64) problems.push({ path: "manifest.json", problem: `edited since the build: its content hashes to ${own}, manifest_xxh64 says ${m.manifest_xxh64}` });
+  }
   for (const f of m.files) {
     const got = await hashFile(join(dir, f.path)).catch((err) => ({ error: describeSystemError(err) }));
     if ("error" in got) problems.push({ path: f.path, problem: `cannot read: ${got.error}` });

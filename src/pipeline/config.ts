@@ -13,7 +13,14 @@ const sourceSchema = obj({
   id: field(str({ nonEmpty: true })),
   meta: field(list(str({ nonEmpty: true })), { default: [] }),
   weight: field(num({ min: 0, max: 100 }), { default: 1 }),
+  // Largest line (jsonl), record (csv, tsv) or file (text) read, in MiB; longer ones are quarantined.
+  // No schema default (64 applies): an unset key leaves the resolved pipeline, its hash and manifest as before.
+  // At most 256: a line becomes one string, and V8 strings end near 512 Mi characters.
+  max_line_mb: field(num({ min: 0.001, max: 256 })),
 });
+
+/** Formats whose readers hold a line (record, file) whole and so have a limit; json and parquet readers do not. */
+const LINE_LIMITED = ["jsonl", "csv", "tsv", "text"];
 
 export interface StageEntry {
   name: string;
@@ -97,6 +104,8 @@ export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
   c.sources.forEach((s, i) => {
     if (names.has(s.name)) issues.push({ path: ["sources", i, "name"], message: `source name "${s.name}" is used twice` });
     names.add(s.name);
+    if (s.max_line_mb !== undefined && !LINE_LIMITED.includes(s.format))
+      issues.push({ path: ["sources", i, "max_line_mb"], atKey: true, message: `max_line_mb applies to formats ${LINE_LIMITED.join(", ")} only (format is ${s.format})` });
   });
   const at = (n: string) => c.stages.findIndex((s) => s.name === n);
   const tok = at("tokenize");

@@ -7,7 +7,7 @@ import { funnelSection } from "./funnel-section.js";
 import { splitsSection } from "./splits.js";
 import { lengthsSection } from "./lengths.js";
 import { clustersSection, readClusters } from "./clusters.js";
-import { excerpts, type Excerpt } from "./excerpts.js";
+import { configuredFields, excerpts, withoutInputText, type Excerpt } from "./excerpts.js";
 import { packingSection, pickMaskRow } from "./packing.js";
 import { overlapSection } from "./overlap.js";
 import { provenanceSection } from "./provenance.js";
@@ -15,7 +15,7 @@ import { page } from "./page.js";
 import { resetIds } from "./svg.js";
 
 export interface ReportOptions {
-  /** Read the inputs again for cluster excerpts (default true). */
+  /** Read the inputs again for cluster excerpts, and quote unreadable records' errors whole (default true); false keeps all input text out. */
   excerpts?: boolean;
   /** Longest time spent reading inputs for excerpts, in ms (default 15 s). */
   excerptMs?: number;
@@ -24,12 +24,15 @@ export interface ReportOptions {
 /** Quarantine lines shown in the report. */
 const QUARANTINE_SHOWN = 10;
 
-async function quarantineHead(dir: string): Promise<{ file: string; line: number; error: string }[]> {
+/** The first quarantine lines; `clean` rewrites their errors (without excerpts, it removes what they quote). */
+async function quarantineHead(dir: string, clean: (error: string) => string = (e) => e): Promise<{ file: string; line: number; error: string }[]> {
   const text = await readFile(join(dir, "quarantine.jsonl"), "utf8").catch(() => "");
   const out = [];
   for (const l of text.split("\n")) {
     if (out.length === QUARANTINE_SHOWN) break;
-    if (l) out.push(JSON.parse(l));
+    if (!l) continue;
+    const q = JSON.parse(l) as { file: string; line: number; error: string };
+    out.push({ file: q.file, line: q.line, error: clean(String(q.error)) });
   }
   return out;
 }
@@ -45,12 +48,14 @@ export async function buildReport(dir: string, label = dir, o: ReportOptions = {
     texts = await excerpts(dir, m, clusters.summary.largest.map((c) => c.kept), { max: 180, deadline: Date.now() + (o.excerptMs ?? 15_000) });
   }
   const mask = await pickMaskRow(dir, m);
+  const fields = configuredFields(m);
+  const quarantine = await quarantineHead(dir, o.excerpts === false ? (e) => withoutInputText(e, fields) : undefined);
   return page({
     dir: label,
     manifest: m,
     figures,
     sections: [
-      { id: "records", title: "Records from input to splits", nav: "Records", html: funnelSection(m, await quarantineHead(dir)) },
+      { id: "records", title: "Records from input to splits", nav: "Records", html: funnelSection(m, quarantine) },
       { id: "splits", title: "Documents and tokens per split and source", nav: "Splits and sources", html: splitsSection(m, figures) },
       { id: "lengths", title: "Document lengths", nav: "Lengths", html: lengthsSection(m) },
       { id: "clusters", title: "Near-duplicate clusters", nav: "Near-duplicates", html: clustersSection(m, clusters, texts) },

@@ -7,6 +7,7 @@ import { join, resolve } from "node:path";
 import type { Manifest } from "../output/manifest.js";
 import { readBuildInfo } from "../output/build-info.js";
 import { readerFor, type Format } from "../sources/formats.js";
+import { lineLimitBytes } from "../sources/lines.js";
 import { isBad } from "../sources/row.js";
 import { STAGES } from "../stages/index.js";
 import type { Stage } from "../stages/stage.js";
@@ -86,7 +87,7 @@ export async function excerpts(dir: string, m: Manifest, refs: RecordRef[], o: {
   } catch (err) {
     return none(`the ledger cannot be read: ${(err as Error).message}`);
   }
-  const specs = new Map(((m.pipeline.resolved as { sources?: { name: string; format: Format; text: string }[] })?.sources ?? []).map((s) => [s.name, s]));
+  const specs = new Map(((m.pipeline.resolved as { sources?: { name: string; format: Format; text: string; max_line_mb?: number }[] })?.sources ?? []).map((s) => [s.name, s]));
   const clean = await redactor(m, info.base_dir);
   // Group by file, so each file is read once, up to its last needed row.
   const byFile = new Map<string, { source: string; lines: Map<number, string[]> }>();
@@ -113,7 +114,8 @@ export async function excerpts(dir: string, m: Manifest, refs: RecordRef[], o: {
     else if (Date.now() > o.deadline) miss("not looked up: the time for excerpts ran out");
     else {
       let left = f.lines.size;
-      for await (const row of readerFor(spec.format)(abs)) {
+      // The build's own line limit, so a line it read is not too long here.
+      for await (const row of readerFor(spec.format)(abs, { maxRecordBytes: lineLimitBytes(spec.max_line_mb) })) {
         const want = f.lines.get(row.line);
         if (want && !isBad(row)) {
           const raw = row.fields[spec.format === "text" ? "text" : spec.text];
@@ -127,6 +129,26 @@ export async function excerpts(dir: string, m: Manifest, refs: RecordRef[], o: {
     }
   }
   return out;
+}
+
+/** The field names the pipeline file gives its sources (text, id, meta): settings, not input text. */
+export function configuredFields(m: Manifest): Set<string> {
+  const sources = (m.pipeline.resolved as { sources?: { text?: string; id?: string; meta?: string[] }[] })?.sources ?? [];
+  return new Set(["text", ...sources.flatMap((s) => [s.text, s.id, ...(s.meta ?? [])]).filter((n): n is string => typeof n === "string")]);
+}
+
+/**
+ * An error message of an unreadable record with no input text left in it, for reports without
+ * excerpts. Messages quote what they found (`duplicate id "T-1"`, or the start of the line in a
+ * JSON parser's message), so everything from the first quote on is cut, unless the message's only
+ * quoted part is one of `keep` (the pipeline's own field names, which siftpack puts in double quotes).
+ */
+export function withoutInputText(error: string, keep: Set<string>): string {
+  const quotes = [...error.matchAll(/["'`]/g)].map((q) => q.index!);
+  if (quotes.length === 0) return error;
+  const [open, close] = quotes;
+  if (quotes.length === 2 && error[open] === '"' && error[close] === '"' && keep.has(error.slice(open + 1, close))) return error;
+  return error.slice(0, open).trimEnd() + " …";
 }
 
 export { key as refKey };

@@ -1,5 +1,10 @@
 // Splits a byte stream into physical lines on "\n" (a trailing "\r" is dropped), holding at most one line.
 
+/** The bytes of a source's `max_line_mb` (MiB); undefined when unset, so the reader's default (64 MiB) applies. */
+export function lineLimitBytes(mb: number | undefined): number | undefined {
+  return mb === undefined ? undefined : Math.floor(mb * 1024 * 1024);
+}
+
 export type Line =
   | { number: number; bytes: Buffer; tooLong?: undefined }
   | { number: number; bytes?: undefined; tooLong: true };

@@ -8,6 +8,7 @@ import { SiftpackError, describeSystemError } from "../errors.js";
 import { readerFor, type Format } from "./formats.js";
 import { compressionOf } from "./open.js";
 import { isBad, type Row } from "./row.js";
+import { lineLimitBytes } from "./lines.js";
 import { kindOf } from "./values.js";
 
 export type { Format } from "./formats.js";
@@ -25,6 +26,8 @@ export interface SourceSpec {
   meta: string[];
   /** Mixture weight; applied by the pipeline, not here. */
   weight: number;
+  /** Largest line (jsonl), record (csv/tsv) or file (text) in MiB; unset: the readers' 64 MiB. */
+  max_line_mb?: number;
 }
 
 /** A row that could not become a record; `line` 0 means the whole file. */
@@ -192,7 +195,7 @@ export async function* readSource(spec: SourceSpec, baseDir: string): AsyncGener
 export async function* readSourceFile(spec: SourceSpec, baseDir: string, file: string, mapper: RecordMapper, range?: { start: number; end: number }): AsyncGenerator<SourceItem | SourceBad> {
   const read = readerFor(spec.format);
   try {
-    for await (const row of read(path.resolve(baseDir, file), range ? { range } : {})) yield mapper.map(row, file);
+    for await (const row of read(path.resolve(baseDir, file), { range, maxRecordBytes: lineLimitBytes(spec.max_line_mb) })) yield mapper.map(row, file);
   } catch (err) {
     throw withSource(spec, err);
   }
