@@ -8,11 +8,18 @@
 //
 // Frame: u32 body length, then the body: a kind byte, then the kind's fields. Numbers are u32 or
 // f64 (row numbers), strings a u32 byte length then UTF-8. A file ends with the end frame and a u32
-// copy of that frame's length, so its counters can be read from the last bytes alone.
+// copy of that frame's length, so its counters can be read from the last bytes alone. A file (or part)
+// that could not be read to its end says so in its end frame (`truncated`): the loss is not a row.
 import { open } from "node:fs/promises";
 import type { DocRecord } from "../types.js";
 import { u32Array } from "../lib/u32-slab.js";
 import type { QuarantineEntry } from "../sources/source.js";
+import type { Truncation } from "../sources/row.js";
+
+/** A unit whose input could not be read to its end: the rows read before the loss (of the unit) and what the reader knew. */
+export interface UnitTruncation extends Truncation {
+  rows_read: number;
+}
 
 // `i` is the row's place in its input file (0-based, bad rows counted): the order the ledger follows.
 export type UnitEvent =
@@ -20,8 +27,8 @@ export type UnitEvent =
   | { k: "drop"; i: number; id: string; source: string; file: string; line: number; reason: string; detail?: Record<string, unknown> }
   /** A kept record; its `seq` is the row. */
   | { k: "rec"; r: DocRecord }
-  /** Last: rows read from the file, records kept, and the stage counters the prefix stages raised on them. */
-  | { k: "end"; rows: number; records: number; counts: Record<string, number> };
+  /** Last: rows read from the file, records kept, the stage counters the prefix stages raised on them, and a truncation if any. */
+  | { k: "end"; rows: number; records: number; counts: Record<string, number>; truncated?: UnitTruncation };
 
 const REC = 1;
 const DROP = 2;
@@ -154,10 +161,10 @@ export class FrameWriter {
     this.finish(start);
   }
 
-  /** The end frame and the trailer that repeats its length. */
-  end(rows: number, records: number, counts: Record<string, number>): void {
+  /** The end frame and the trailer that repeats its length. `truncated` is left out when unset, so other units' bytes do not change. */
+  end(rows: number, records: number, counts: Record<string, number>, truncated?: UnitTruncation): void {
     const start = this.begin(END);
-    this.json({ rows, records, counts });
+    this.json(truncated ? { rows, records, counts, truncated } : { rows, records, counts });
     this.finish(start);
     this.room(4);
     this.u32(this.at - start - 4);
@@ -168,7 +175,7 @@ export class FrameWriter {
     if (e.k === "rec") this.rec(e.r);
     else if (e.k === "drop") this.drop({ id: e.id, source: e.source, origin: { file: e.file, line: e.line }, seq: e.i }, e.reason, e.detail);
     else if (e.k === "bad") this.bad(e.i, e.entry);
-    else this.end(e.rows, e.records, e.counts);
+    else this.end(e.rows, e.records, e.counts, e.truncated);
   }
 
   /** The frames written so far, in memory of their own (never Node's shared pool, so they can be moved to a thread); the writer starts afresh. */
@@ -275,7 +282,7 @@ function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
     const i = f.f64();
     return { k: "bad", i, entry: f.json<QuarantineEntry>()! };
   }
-  if (kind === END) return { k: "end", ...f.json<{ rows: number; records: number; counts: Record<string, number> }>()! };
+  if (kind === END) return { k: "end", ...f.json<{ rows: number; records: number; counts: Record<string, number>; truncated?: UnitTruncation }>()! };
   throw new Error(`unknown frame kind ${kind}`);
 }
 

@@ -46,7 +46,9 @@ export function recordsLine(m: Manifest): string {
     .sort((a, b) => b[1] - a[1])
     .map(([k, v]) => `${k} ${v}`)
     .join(", ");
-  return `records: ${r.read} read, ${r.kept} kept, ${r.dropped} dropped, ${r.quarantined} quarantined${reasons ? ` (${reasons})` : ""}\n`;
+  // Files read only in part are not records; their count follows (the run's warnings name them).
+  const truncated = r.truncated_files ? `; ${r.truncated_files} truncated input file${r.truncated_files === 1 ? "" : "s"}${r.rows_lost ? ` (${r.rows_lost} rows known lost)` : ""}` : "";
+  return `records: ${r.read} read, ${r.kept} kept, ${r.dropped} dropped, ${r.quarantined} quarantined${reasons ? ` (${reasons})` : ""}${truncated}\n`;
 }
 
 export function formatSummary(dir: string, m: Manifest): string {

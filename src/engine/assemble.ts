@@ -3,7 +3,7 @@
 // the whole-corpus checks of `unit` stages gathered, the analyses' figures read from their
 // partitions, the manifest written, and the build published in one rename. It reads no token.
 import { copyFile, mkdir, open, readFile, rename, rm } from "node:fs/promises";
-import { dirname, join } from "node:path";
+import { dirname, join, resolve } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { outputSettings } from "../stages/output-settings.js";
 import { formOf } from "../stages/stage.js";
@@ -15,7 +15,7 @@ import { LengthHistogram } from "../pack/length-histogram.js";
 import { freeName } from "../lib/numbered-name.js";
 import { Rng, seedFor } from "../pack/rng.js";
 import { shufflesSplit } from "../stages/pack.js";
-import { prepareStaging, publishStaging } from "../output/output-dir.js";
+import { checkOutputPlace, prepareStaging, publishStaging } from "../output/output-dir.js";
 import { writeManifest, type Manifest } from "../output/manifest.js";
 import { writeBuildInfo } from "../output/build-info.js";
 import { summaryFile, type TaskEnv } from "./unit-io.js";
@@ -45,6 +45,8 @@ export async function assemblePhase(env: TaskEnv, { packPhase, groupCount, analy
   // One entry per input file (a file read in parts is hashed whole by its first part).
   const inputs: Manifest["inputs"] = env.units.filter((u) => !u.range || u.range.start === 0).map((u) => ({ source: u.source.name, path: u.path, size: facts.get(u.u)!.size!, xxh64: facts.get(u.u)!.xxh64! }));
 
+  // As a local run checks before it starts: a cluster's last task must not replace a folder holding the pipeline or an input.
+  await checkOutputPlace(p.outDir, p.file, env.units.map((u) => resolve(p.baseDir, u.path)));
   const staging = await prepareStaging(p.outDir);
   const out = outputSettings(config.stages, p.baseDir);
   const packOpts = out.pack;
@@ -190,6 +192,10 @@ function mergeCounts(list: LedgerCounts[]): LedgerCounts {
     c.quarantined += x.quarantined;
     add(c.by_reason, x.by_reason);
     add(c.by_split, x.by_split);
+    if (x.truncated_files) {
+      c.truncated_files = (c.truncated_files ?? 0) + x.truncated_files;
+      c.rows_lost = (c.rows_lost ?? 0) + (x.rows_lost ?? 0);
+    }
     for (const [s, v] of Object.entries(x.by_source)) add((c.by_source[s] ??= { read: 0, kept: 0, dropped: 0, quarantined: 0, tokens: 0 }) as unknown as Record<string, number>, v as unknown as Record<string, number>);
   }
   // Tokens put into the splits (repeats by weight included), summed over the sources (a single ledger left this 0).

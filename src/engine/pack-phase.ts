@@ -11,7 +11,7 @@ import { collectUnit, KeyedDirs, type Collectors } from "../stages/keyed.js";
 import { dropRecord, readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { copiesFor } from "./weights.js";
-import { Ledger, type LedgerCounts } from "../output/ledger.js";
+import { Ledger, type LedgerCounts, type TruncatedFile } from "../output/ledger.js";
 import { ShardWriter, type Emit, type SplitStats, type WrittenFile } from "../output/shard-writer.js";
 import type { AnalysisSteps } from "../analysis/steps.js";
 import type { DocRecord, StageContext } from "../types.js";
@@ -80,8 +80,13 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       const fix = unitFixes(env)[u];
       const repeated = idsDirs ? await idsDirs.decisions(u) : undefined;
       const fates: Fate[] = [];
+      let truncated: TruncatedFile | undefined;
       for await (const e of readEvents(unitsFile(work, "read", u), { records: false })) {
-        if (e.k === "bad") fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
+        if (e.k === "end" && e.truncated) {
+          // Rows read count the whole file's: a later part of a file follows its earlier parts' rows.
+          const unit = env.units[u];
+          truncated = { source: unit.source.name, file: unit.path, ...e.truncated, rows_read: e.truncated.rows_read + fix.rows };
+        } else if (e.k === "bad") fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
         else if (e.k === "drop") {
           const d = dropOf(e);
           fixFromRead(env, u, d.r);
@@ -128,6 +133,12 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       }
       const rest = [...fates.slice(at), ...late].sort((a, b) => a.i - b.i);
       for (const f of rest) await emit(f);
+      if (truncated) {
+        // After the file's last row; the source accepted the loss (the read phase fails otherwise), so it is a warning.
+        ledger.truncated(truncated);
+        await ledger.flush();
+        env.log.warn({ source: truncated.source, file: truncated.file, rows_read: truncated.rows_read, rows_lost: truncated.rows_lost, bytes_read: truncated.bytes_read, size: truncated.size }, `source "${truncated.source}": ${truncated.file} is truncated (${truncated.error}) after ${truncated.rows_read} rows; built from what could be read (accept_truncated)`);
+      }
     }
     for (const { writer, packer } of writers.values()) {
       packer.finish();

@@ -1,12 +1,13 @@
 // The read phase: each input file of the task's share is read, mapped and run through the leading
 // per-record stages (in batches on the worker pool), its fates written in row order to
 // read/units/<u>.bin. The same file is the build cache's entry for it, so a rerun with the same
-// file and settings links it instead of redoing the work.
+// file and settings links it instead of redoing the work. A file that cannot be read to its end fails
+// the run here unless its source sets accept_truncated; accepted, the loss rides in the end frame.
 import { open } from "node:fs/promises";
 import { join } from "node:path";
 import { readSourceFile, RecordMapper } from "../sources/source.js";
 import { BuildCache } from "../cache/build-cache.js";
-import { FrameWriter, readEnd, type UnitEvent } from "../cache/record-events.js";
+import { FrameWriter, readEnd, type UnitEvent, type UnitTruncation } from "../cache/record-events.js";
 import { toolVersion } from "../output/manifest.js";
 import { orderedMap } from "../parallel/pool.js";
 import { BATCH_BYTES, BATCH_RECORDS, BATCHES_AHEAD, type RecordPool } from "../parallel/record-pool.js";
@@ -28,6 +29,8 @@ export interface ReadUnitResult {
   /** Physical lines in a part of a file (later parts number their lines after the earlier parts' lines). */
   lines?: number;
   counts: Record<string, number>;
+  /** The unit's input could not be read to its end (accepted by the source). */
+  truncated?: UnitTruncation;
 }
 
 export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, cache: BuildCache): Promise<ReadUnitResult> {
@@ -45,6 +48,8 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     range: unit.range ?? null,
     part: part?.xxh64 ?? null,
     unit: "read",
+    // Bumped when what reading a file yields changes within a version (2: record frames, truncated files counted as loss).
+    reading: 2,
     siftpack: toolVersion(),
     source: spec,
     file: unit.path,
@@ -61,6 +66,7 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     cache.report.read.reused++;
     end = await readEnd(hit);
     if (!end) throw new SiftpackError("SP_OUTPUT", `cache entry ${hit} ends without its end marker; remove it and run again`);
+    if (end.truncated && !spec.accept_truncated) throw truncatedError(env, u, end.truncated);
     await linkAtomic(hit, out);
     env.meter.records(end.rows);
     env.meter.bytes(unitBytes(unit));
@@ -73,7 +79,7 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     await linkOrCopy(out, pending.tmp);
     await pending.commit();
   }
-  return { rows: end.rows, records: end.records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts };
+  return { rows: end.rows, records: end.records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts, ...(end.truncated ? { truncated: end.truncated } : {}) };
 }
 
 async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: string): Promise<Extract<UnitEvent, { k: "end" }>> {
@@ -83,12 +89,18 @@ async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: stri
   const out = await AtomicStream.open(path);
   const counts: Record<string, number> = {};
   let records = 0;
+  let truncated: UnitTruncation | undefined;
   env.meter.reading(join(env.p.baseDir, unit.path), unit.range?.start ?? 0, unitBytes(unit));
   // Rows as frames, cut into batches for the pool.
   async function* batches(): AsyncGenerator<Uint8Array> {
     const w = new FrameWriter(BATCH_BYTES + (BATCH_BYTES >> 2));
     let n = 0;
     for await (const item of readSourceFile(spec, env.p.baseDir, unit.path, mapper, unit.range)) {
+      if (item.kind === "truncated") {
+        // The file's last item; not a row, so no frame: it goes into the end frame.
+        truncated = { rows_read: item.rows_read, ...item.truncated };
+        continue;
+      }
       const i = mapper.rows - 1;
       if (item.kind === "bad") w.bad(i, item.entry);
       else w.rec({ id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i });
@@ -107,15 +119,33 @@ async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: stri
       crashPoint("read");
       env.meter.records(result.rows);
     }
+    if (truncated && !spec.accept_truncated) throw truncatedError(env, u, truncated);
     const w = new FrameWriter(1024);
-    w.end(mapper.rows, records, counts);
+    w.end(mapper.rows, records, counts, truncated);
     await out.write(w.take());
     await out.commit();
-    return { k: "end", rows: mapper.rows, records, counts };
+    return { k: "end", rows: mapper.rows, records, counts, ...(truncated ? { truncated } : {}) };
   } catch (err) {
     await out.abort();
     throw recordFailure(err);
   }
+}
+
+/**
+ * The one-line error for a truncated input whose source does not accept it, e.g. `source "tickets":
+ * tickets/2026-03.jsonl.gz is truncated (corrupt gzip data: unexpected end of file) after 1501 rows,
+ * 40213 of 81920 bytes read; set accept_truncated: true on the source to build from what could be read`.
+ */
+export function truncatedError(env: TaskEnv, u: number, t: UnitTruncation): SiftpackError {
+  const unit = env.units[u];
+  const rows = (n: number) => `${n} row${n === 1 ? "" : "s"}`;
+  const facts = [`after ${rows(t.rows_read)}${unit.range && unit.range.start > 0 ? ` of the part from byte ${unit.range.start}` : ""}`];
+  if (t.rows_lost !== undefined) facts.push(`${rows(t.rows_lost)} lost`);
+  if (t.bytes_read !== undefined && t.size !== undefined) facts.push(`${t.bytes_read} of ${t.size} bytes read`);
+  return new SiftpackError(
+    "SP_INPUT_FORMAT",
+    `source "${unit.source.name}": ${unit.path} is truncated (${t.error}) ${facts.join(", ")}; set accept_truncated: true on the source to build from what could be read`,
+  );
 }
 
 /** XXH64 and physical line count of bytes [start, end) of a file. */

@@ -1,10 +1,12 @@
-// The ledger: one gzipped JSON line per input record with its fate; the manifest's counts are its sums.
+// The ledger: one gzipped JSON line per input record with its fate, and one per input file that could not
+// be read to its end (fate "truncated", not a record); the manifest's counts are its sums.
 import { createWriteStream, type WriteStream } from "node:fs";
 import { rename } from "node:fs/promises";
 import { once } from "node:events";
 import { createGzip, type Gzip } from "node:zlib";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
+import type { Truncation } from "../sources/row.js";
 
 export interface FateCounts {
   read: number;
@@ -23,6 +25,21 @@ export interface LedgerCounts extends FateCounts {
   by_reason: Record<string, number>;
   by_source: Record<string, SourceCounts>;
   by_split: Record<string, number>;
+  /**
+   * Input files that could not be read to their end (accepted with accept_truncated) and the rows
+   * their formats said were lost. Not records: read = kept + dropped + quarantined still holds.
+   * Present only when a file was truncated, so other builds' manifests keep their bytes.
+   */
+  truncated_files?: number;
+  rows_lost?: number;
+}
+
+/** A file that could not be read to its end, as its ledger line tells it. */
+export interface TruncatedFile extends Truncation {
+  source: string;
+  file: string;
+  /** Rows of the file read before the loss (bad ones included). */
+  rows_read: number;
 }
 
 const zero = (): SourceCounts => ({ read: 0, kept: 0, dropped: 0, quarantined: 0, tokens: 0 });
@@ -118,6 +135,16 @@ export class Ledger {
     this.tally(e.source, "quarantined", "quarantined");
     this.queue.push({ source: e.source, file: e.file, line: e.line, fate: "quarantined", error: e.error });
     await this.quarantine.write(e);
+  }
+
+  /** A file that could not be read to its end: a line after its last row, counted apart from the records. */
+  truncated(t: TruncatedFile): void {
+    this.counts.truncated_files = (this.counts.truncated_files ?? 0) + 1;
+    this.counts.rows_lost = (this.counts.rows_lost ?? 0) + (t.rows_lost ?? 0);
+    const line: Record<string, unknown> = { source: t.source, file: t.file, fate: "truncated", rows_read: t.rows_read };
+    for (const k of ["bytes_read", "size", "rows_lost"] as const) if (t[k] !== undefined) line[k] = t[k];
+    line.error = t.error;
+    this.queue.push(line);
   }
 
   async flush(): Promise<void> {

@@ -17,6 +17,9 @@ const sourceSchema = obj({
   // No schema default (64 applies): an unset key leaves the resolved pipeline, its hash and manifest as before.
   // At most 256: a line becomes one string, and V8 strings end near 512 Mi characters.
   max_line_mb: field(num({ min: 0.001, max: 256 })),
+  // Build from what could be read of a file that cannot be read to its end (a cut .gz or .zst, a
+  // corrupt Parquet row group); unset, such a file fails the run. No schema default, as for max_line_mb.
+  accept_truncated: field(bool()),
 });
 
 /** Formats whose readers hold a line (record, file) whole and so have a limit; json and parquet readers do not. */

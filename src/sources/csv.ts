@@ -1,9 +1,9 @@
 // CSV/TSV reader: a header row names the fields; every later record is one row, checked field by field.
 
 import { CsvScanner, type RawRecord } from "./csv-scan.js";
-import { InputReadError, openInput, readChunks } from "./open.js";
+import { InputReadError, openInput, readChunks, truncationOf } from "./open.js";
 import { DEFAULT_MAX_RECORD_BYTES, type ReaderOptions } from "./reader.js";
-import type { Row } from "./row.js";
+import { truncatedRow, type Row } from "./row.js";
 import { decodeStrict, withoutBom } from "./utf8.js";
 
 /** Turns raw records into rows once the header is known. A bad header makes the whole file unusable. */
@@ -57,6 +57,7 @@ class Table {
  *   { line: 0 } bad row and nothing else. A header-only file yields nothing and is not an error.
  * - A file with no record at all (0 bytes, or only empty lines) is { line: 0, error: "empty file" }.
  * - Invalid UTF-8 is detected per field on the raw bytes, so only the row holding it is lost.
+ * - A read failure (a cut or corrupt .gz/.zst, a disk error) yields a truncated row and ends the file.
  * - tsv uses the same quoting rules with a tab delimiter (spreadsheet exports quote that way).
  */
 export async function* readCsv(file: string, options: ReaderOptions = {}): AsyncGenerator<Row> {
@@ -82,7 +83,7 @@ export async function* readCsv(file: string, options: ReaderOptions = {}): Async
   } catch (err) {
     if (!(err instanceof InputReadError)) throw err;
     const line = table.header === undefined ? 0 : table.rows + 1;
-    yield { line, error: `${err.message} (file line ${scanner.line})` };
+    yield truncatedRow(line, truncationOf(err));
     return;
   } finally {
     input.destroy();

@@ -2,9 +2,9 @@
 
 import { jsonParser } from "stream-json/core/parser.js";
 import streamArray from "stream-json/core/streamers/stream-array.js";
-import { InputReadError, openInput, readChunks } from "./open.js";
+import { InputReadError, openInput, readChunks, truncationOf } from "./open.js";
 import type { ReaderOptions } from "./reader.js";
-import type { Row } from "./row.js";
+import { truncatedRow, type Row } from "./row.js";
 import { Utf8Pieces, type Utf8Piece } from "./utf8.js";
 import { isJsonObject, kindOf } from "./values.js";
 
@@ -156,6 +156,8 @@ function describeParserError(err: unknown): string {
  * - A syntax error or truncation yields one bad row at the element it stopped in (line 0 if the
  *   file is not an array at all, or the damage is after the array) and ends the file; elements
  *   before it have already been yielded.
+ * - A read failure (a cut or corrupt .gz/.zst, a disk error) yields a truncated row and ends the
+ *   file. (An uncompressed file cut short is a syntax error: nothing says it was cut.)
  * - A file with nothing but whitespace (or 0 bytes) is { line: 0, error: "empty file" }; `[]` yields nothing.
  * Each element is assembled whole in memory; maxRecordBytes does not apply.
  */
@@ -171,7 +173,7 @@ export async function* readJson(file: string, _options: ReaderOptions = {}): Asy
     yield* state.finish();
   } catch (err) {
     if (err instanceof JsonStop) yield { line: err.line, error: err.message };
-    else if (err instanceof InputReadError) yield { line: state.done + 1, error: err.message };
+    else if (err instanceof InputReadError) yield truncatedRow(state.done + 1, truncationOf(err));
     else throw err;
   } finally {
     input.destroy();

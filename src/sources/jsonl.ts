@@ -1,9 +1,9 @@
 // JSON Lines reader: one object per physical line; each line is decoded and parsed alone so damage stays local.
 
-import { InputReadError, openInput, readChunks } from "./open.js";
+import { InputReadError, openInput, readChunks, truncationOf } from "./open.js";
 import { LineSplitter, type Line } from "./lines.js";
 import { DEFAULT_MAX_RECORD_BYTES, formatBytes, type ReaderOptions } from "./reader.js";
-import type { Row } from "./row.js";
+import { truncatedRow, type Row } from "./row.js";
 import { decodeStrict, firstInvalidUtf8, withoutBom } from "./utf8.js";
 import { isJsonObject, kindOf } from "./values.js";
 
@@ -11,7 +11,8 @@ import { isJsonObject, kindOf } from "./values.js";
  * Rows of a .jsonl (or .jsonl.gz) file; `line` is the 1-based physical line.
  * Blank lines (only spaces, tabs, CR) are skipped and are not records. A file with no
  * non-blank line at all, including a 0-byte file, yields a single { line: 0, error: "empty file" }.
- * A read failure (e.g. corrupt gzip) yields one bad row at the line it interrupted and ends the file.
+ * A read failure (a cut or corrupt .gz/.zst, a disk error) yields a truncated row at the line it
+ * interrupted and ends the file.
  */
 export async function* readJsonl(file: string, options: ReaderOptions = {}): AsyncGenerator<Row> {
   const maxBytes = options.maxRecordBytes ?? DEFAULT_MAX_RECORD_BYTES;
@@ -39,7 +40,7 @@ export async function* readJsonl(file: string, options: ReaderOptions = {}): Asy
     }
   } catch (err) {
     if (!(err instanceof InputReadError)) throw err;
-    yield { line: splitter.current, error: err.message };
+    yield truncatedRow(splitter.current, truncationOf(err));
     return;
   } finally {
     input.destroy();
@@ -70,11 +71,13 @@ function parseLine(line: Line, maxBytes: number): Row | undefined {
 }
 
 /**
- * V8 messages sometimes quote the whole input (`Unexpected token 'x', "<line>" is not valid JSON`);
- * the line is already identified by number, so the echo is cut and the rest capped.
+ * V8 messages sometimes quote the input (`Unexpected token 'x', "<line>" is not valid JSON`), a long
+ * one cut short with "..." before or after the quotes (`Unexpected token 'D', "Depot Nord"... is not
+ * valid JSON`; both forms seen from Node 20's JSON.parse). The line is already identified by number,
+ * so the echo is cut (it would copy input text into quarantine lines) and the rest capped.
  */
 export function shortenParseError(message: string): string {
-  const cut = message.replace(/, (\.\.\.)?".*" is not valid JSON$/s, "");
+  const cut = message.replace(/, (\.\.\.)?".*"(\.\.\.)? is not valid JSON$/s, "");
   const short = cut.length > 160 ? `${cut.slice(0, 157)}...` : cut;
   return short.charAt(0).toLowerCase() + short.slice(1);
 }

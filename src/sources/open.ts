@@ -1,10 +1,12 @@
-// Opens an input file as a lazy stream of byte chunks, decompressing `.gz` and `.zst`; read failures become InputReadError.
+// Opens an input file as a lazy stream of byte chunks, decompressing `.gz` and `.zst`; read failures
+// become InputReadError, which knows how far into the file reading got.
 
 import { open } from "node:fs/promises";
 import { pipeline, Transform, type Readable } from "node:stream";
 import { createGunzip } from "node:zlib";
 import { Decompress } from "fzstd";
 import { SiftpackError, describeSystemError } from "../errors.js";
+import type { Truncation } from "./row.js";
 
 /** Compressed formats recognised by extension but not readable (node:zlib in Node 20 has no xz or bzip2). */
 const UNSUPPORTED: Record<string, string> = {
@@ -12,13 +14,30 @@ const UNSUPPORTED: Record<string, string> = {
   ".bz2": "bzip2",
 };
 
-/** A failure while reading an opened file (disk error, corrupt compressed data). Its message is user-facing. */
+/**
+ * A failure while reading an opened file (disk error, corrupt or cut compressed data). Its message
+ * is user-facing; `bytesRead` (of the file's bytes, compressed ones for .gz/.zst) and `size` say how
+ * far reading got, when known.
+ */
 export class InputReadError extends Error {
-  constructor(message: string, options?: { cause?: unknown }) {
+  bytesRead?: number;
+  size?: number;
+  constructor(message: string, options?: { cause?: unknown; bytesRead?: number; size?: number }) {
     super(message, options);
     this.name = "InputReadError";
+    if (options?.bytesRead !== undefined) this.bytesRead = options.bytesRead;
+    if (options?.size !== undefined) this.size = options.size;
   }
 }
+
+/** How far into its file an opened input has got: the file's size and the bytes consumed so far. */
+interface Progress {
+  size: number;
+  consumed(): number;
+}
+
+/** The progress of the streams openInput returned, looked up when a read fails. */
+const PROGRESS = new WeakMap<Readable, Progress>();
 
 export type Compression = "none" | "gzip" | "zstd";
 
@@ -52,10 +71,21 @@ export async function openInput(file: string, range?: { start: number; end: numb
     throw new SiftpackError("SP_INPUT_MISSING", `cannot open "${file}": ${describeSystemError(err)}`, { cause: err });
   }
   if (range && compression !== "none") throw new Error(`openInput: a byte range of a compressed file (${file})`);
+  const size = (await handle.stat().catch(() => undefined))?.size;
   const raw = handle.createReadStream({ highWaterMark: 1 << 20, ...(range ? { start: range.start, end: range.end - 1 } : {}) });
-  if (compression === "none") return raw;
+  const offset = range?.start ?? 0;
+  if (compression === "none") {
+    if (size !== undefined) PROGRESS.set(raw, { size, consumed: () => offset + raw.bytesRead });
+    return raw;
+  }
+  // What the decompressor consumed, not what was read from disk (up to a MiB ahead of it): zlib
+  // streams count their consumed input in `bytesWritten` (Node's zlib documentation, from memory);
+  // the zstd decoder counts the input it decoded without error.
+  const decoder = compression === "gzip" ? createGunzip() : createZstdDecoder();
   // pipeline() tears down both ends if either fails or the consumer stops early, so the fd never leaks.
-  return pipeline(raw, compression === "gzip" ? createGunzip() : createZstdDecoder(), () => {});
+  const out = pipeline(raw, decoder, () => {});
+  if (size !== undefined) PROGRESS.set(out, { size, consumed: () => (decoder as Transform & { bytesWritten: number }).bytesWritten });
+  return out;
 }
 
 /** A zstd-decoding error; its message is shown to users as "corrupt zstd data: …". */
@@ -63,16 +93,24 @@ class ZstdDataError extends Error {
   readonly code = "ZSTD_DATA";
 }
 
+/** Input handed to the zstd decoder at a time, so the bytes consumed before a failure are known to within this. */
+const ZSTD_STEP = 1 << 16;
+
 /**
  * Streaming zstd decompression. Node 20's zlib has no zstd, so this uses fzstd, a pure-JS
  * decoder (no native build): every frame of the file is decoded in turn, as chunks arrive.
+ * `bytesWritten` counts the compressed bytes decoded without error, as zlib's streams do.
  */
-export function createZstdDecoder(): Transform {
+export function createZstdDecoder(): Transform & { bytesWritten: number } {
   let decoder: Decompress;
   const transform = new Transform({
     transform(chunk: Buffer, _enc, done) {
       try {
-        decoder.push(chunk);
+        for (let at = 0; at < chunk.length; at += ZSTD_STEP) {
+          const step = chunk.subarray(at, at + ZSTD_STEP);
+          decoder.push(step);
+          out.bytesWritten += step.length;
+        }
         done();
       } catch (err) {
         done(new ZstdDataError((err as Error).message, { cause: err }));
@@ -88,10 +126,11 @@ export function createZstdDecoder(): Transform {
       }
     },
   });
+  const out = Object.assign(transform, { bytesWritten: 0 });
   decoder = new Decompress((data) => {
     if (data.length > 0) transform.push(Buffer.from(data.buffer, data.byteOffset, data.length));
   });
-  return transform;
+  return out;
 }
 
 /** What a failed read means to a user. zlib errors carry Z_* codes; everything else is an OS error. */
@@ -102,13 +141,22 @@ export function describeReadError(err: unknown): string {
   return `read error: ${describeSystemError(err)}`;
 }
 
-/** Iterates the chunks of an opened input, turning stream errors into InputReadError; closes the input when done or abandoned. */
+/**
+ * Iterates the chunks of an opened input, turning stream errors into InputReadError (with how far
+ * into the file reading got, for inputs from openInput); closes the input when done or abandoned.
+ */
 export async function* readChunks(input: Readable): AsyncGenerator<Buffer> {
   try {
     for await (const chunk of input) yield chunk as Buffer;
   } catch (err) {
-    throw new InputReadError(describeReadError(err), { cause: err });
+    const progress = PROGRESS.get(input);
+    throw new InputReadError(describeReadError(err), { cause: err, ...(progress ? { bytesRead: Math.min(progress.consumed(), progress.size), size: progress.size } : {}) });
   } finally {
     input.destroy();
   }
+}
+
+/** The truncation an InputReadError means: its message and how far reading got. */
+export function truncationOf(err: InputReadError): Truncation {
+  return { error: err.message, ...(err.bytesRead !== undefined ? { bytes_read: err.bytesRead } : {}), ...(err.size !== undefined ? { size: err.size } : {}) };
 }

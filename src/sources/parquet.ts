@@ -6,7 +6,7 @@ import { decompress as zstdDecompress } from "fzstd";
 import { asyncBufferFromFile, parquetMetadataAsync, parquetReadObjects, type Compressors, type FileMetaData } from "hyparquet";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { ReaderOptions } from "./reader.js";
-import type { Row } from "./row.js";
+import { truncatedRow, type Row } from "./row.js";
 import { decodeStrict, firstInvalidUtf8 } from "./utf8.js";
 
 /**
@@ -75,27 +75,35 @@ function message(err: unknown): string {
  * Rows of a .parquet file; `line` is the 1-based row number in the file. All columns are read
  * (the source's `text`, `id` and `meta` pick from them), one row group at a time, so memory
  * holds one row group, not the file.
- * - A file whose footer cannot be read (not Parquet, truncated) is { line: 0, error }.
- * - A file with no rows is { line: 0, error: "empty file" }.
- * - A row group that cannot be decoded (corrupt page, unsupported codec) is one bad row at its
- *   first row, naming the rows it held; reading goes on with the next row group.
+ * - A 0-byte file, or one with no rows, is { line: 0, error: "empty file" }.
+ * - A file whose footer cannot be read (cut short, not Parquet) is a truncated row: nothing in it
+ *   can be read, and how many rows are lost is unknown.
+ * - A row group that cannot be decoded (corrupt page, unsupported codec) is lost; reading goes on
+ *   with the next row group, and the file ends with one truncated row that names the first such
+ *   group and counts the rows of all of them (the footer says how many each held).
  * maxRecordBytes does not apply: a Parquet page is decoded whole.
  */
 export async function* readParquet(file: string, _options: ReaderOptions = {}): AsyncGenerator<Row> {
+  let size: number;
   try {
-    await stat(file);
+    size = (await stat(file)).size;
   } catch (err) {
     throw new SiftpackError("SP_INPUT_MISSING", `cannot open "${file}": ${describeSystemError(err)}`, { cause: err });
+  }
+  if (size === 0) {
+    yield { line: 0, error: "empty file" };
+    return;
   }
   const buffer = await asyncBufferFromFile(file);
   let metadata: FileMetaData;
   try {
     metadata = await parquetMetadataAsync(buffer, { parsers: PARSERS });
   } catch (err) {
-    yield { line: 0, error: `not a readable Parquet file: ${message(err)}` };
+    yield truncatedRow(0, { error: `not a readable Parquet file: ${message(err)}`, bytes_read: 0, size });
     return;
   }
   let start = 0;
+  let lost: { line: number; error: string; rows: number } | undefined;
   for (let g = 0; g < metadata.row_groups.length; g++) {
     const rows = Number(metadata.row_groups[g].num_rows);
     if (rows === 0) continue;
@@ -110,12 +118,14 @@ export async function* readParquet(file: string, _options: ReaderOptions = {}): 
         parsers: PARSERS,
       });
     } catch (err) {
-      yield { line: start + 1, error: `row group ${g + 1} (rows ${start + 1} to ${start + rows}) cannot be read: ${message(err)}` };
+      if (lost) lost.rows += rows;
+      else lost = { line: start + 1, error: `row group ${g + 1} (rows ${start + 1} to ${start + rows}) cannot be read: ${message(err)}`, rows };
       start += rows;
       continue;
     }
     for (let i = 0; i < objects.length; i++) yield toRow(start + i + 1, objects[i]);
     start += rows;
   }
-  if (start === 0) yield { line: 0, error: "empty file" };
+  if (lost) yield truncatedRow(lost.line, { error: lost.error, rows_lost: lost.rows });
+  else if (start === 0) yield { line: 0, error: "empty file" };
 }

@@ -7,7 +7,7 @@ import { glob, isDynamicPattern } from "tinyglobby";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { readerFor, type Format } from "./formats.js";
 import { compressionOf } from "./open.js";
-import { isBad, type Row } from "./row.js";
+import { isBad, isTruncated, type Row, type Truncation } from "./row.js";
 import { lineLimitBytes } from "./lines.js";
 import { kindOf } from "./values.js";
 
@@ -28,6 +28,8 @@ export interface SourceSpec {
   weight: number;
   /** Largest line (jsonl), record (csv/tsv) or file (text) in MiB; unset: the readers' 64 MiB. */
   max_line_mb?: number;
+  /** Build from what could be read of a file that cannot be read to its end; unset: such a file fails the run. */
+  accept_truncated?: boolean;
 }
 
 /** A row that could not become a record; `line` 0 means the whole file. */
@@ -51,6 +53,18 @@ export interface SourceBad {
   kind: "bad";
   entry: QuarantineEntry;
 }
+
+/** A file of the source (or the part of it read) could not be read to its end; last of its items, not a record. */
+export interface SourceTruncated {
+  kind: "truncated";
+  source: string;
+  file: string;
+  /** Rows of the file (of the part, for a part) read before the loss, bad ones included. */
+  rows_read: number;
+  truncated: Truncation;
+}
+
+export type SourceEvent = SourceItem | SourceBad | SourceTruncated;
 
 function byteOrder(a: string, b: string): number {
   return Buffer.compare(Buffer.from(a), Buffer.from(b));
@@ -149,7 +163,9 @@ export class RecordMapper {
     this.idDigest = (this.idDigest + h) & 0xffffffffffffffffn;
   }
 
+  /** A row as a record or a quarantine entry; a truncated row is not a row (readSourceFile sets it apart) and is refused. */
   map(row: Row, file: string): SourceItem | SourceBad {
+    if (isTruncated(row)) throw new TypeError("RecordMapper.map: a truncated row is not a row");
     // Every row counts, bad ones too, so a default id does not move when an earlier row breaks or heals.
     const n = ++this.count;
     const bad = (error: string): SourceBad => ({ kind: "bad", entry: { source: this.spec.name, file, line: row.line, error } });
@@ -181,21 +197,31 @@ export class RecordMapper {
 }
 
 /**
- * Every row of every file of the source, in file order, as a record or a quarantine entry.
- * Damage inside a file (bad rows, a corrupt .gz) becomes SourceBad items and reading goes on;
- * only a file that cannot be opened at all throws (a SiftpackError naming the source).
+ * Every row of every file of the source, in file order, as a record or a quarantine entry, and a
+ * SourceTruncated after the rows of a file that could not be read to its end (a cut .gz). Damage
+ * inside a file becomes SourceBad items and reading goes on; only a file that cannot be opened at
+ * all throws (a SiftpackError naming the source). Whether a truncation fails the run is the
+ * caller's decision (the build engine fails unless the source sets accept_truncated).
  */
-export async function* readSource(spec: SourceSpec, baseDir: string): AsyncGenerator<SourceItem | SourceBad> {
+export async function* readSource(spec: SourceSpec, baseDir: string): AsyncGenerator<SourceEvent> {
   const files = await listFiles(spec, baseDir);
   const mapper = new RecordMapper(spec);
   for (const file of files) yield* readSourceFile(spec, baseDir, file, mapper);
 }
 
 /** The rows of one file of a source; `mapper` carries the record count and ids across files. */
-export async function* readSourceFile(spec: SourceSpec, baseDir: string, file: string, mapper: RecordMapper, range?: { start: number; end: number }): AsyncGenerator<SourceItem | SourceBad> {
+export async function* readSourceFile(spec: SourceSpec, baseDir: string, file: string, mapper: RecordMapper, range?: { start: number; end: number }): AsyncGenerator<SourceEvent> {
   const read = readerFor(spec.format);
+  let rows = 0;
   try {
-    for await (const row of read(path.resolve(baseDir, file), { range, maxRecordBytes: lineLimitBytes(spec.max_line_mb) })) yield mapper.map(row, file);
+    for await (const row of read(path.resolve(baseDir, file), { range, maxRecordBytes: lineLimitBytes(spec.max_line_mb) })) {
+      // Not a row: the record count (and so the default ids) does not move.
+      if (isTruncated(row)) yield { kind: "truncated", source: spec.name, file, rows_read: rows, truncated: row.truncated };
+      else {
+        rows++;
+        yield mapper.map(row, file);
+      }
+    }
   } catch (err) {
     throw withSource(spec, err);
   }

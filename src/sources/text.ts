@@ -1,8 +1,8 @@
 // Plain-text reader: the whole file is one document.
 
-import { InputReadError, openInput, readChunks } from "./open.js";
+import { InputReadError, openInput, readChunks, truncationOf } from "./open.js";
 import { DEFAULT_MAX_RECORD_BYTES, formatBytes, type ReaderOptions } from "./reader.js";
-import type { Row } from "./row.js";
+import { truncatedRow, type Row } from "./row.js";
 import { decodeStrict, firstInvalidUtf8, withoutBom } from "./utf8.js";
 
 function isBlank(bytes: Buffer): boolean {
@@ -14,7 +14,8 @@ function isBlank(bytes: Buffer): boolean {
  * One row { line: 1, fields: { text, path } } where `path` is the `file` argument. The file is
  * read whole (up to maxRecordBytes); a leading BOM is dropped, the text is otherwise unchanged.
  * A file with nothing but whitespace (or 0 bytes) is { line: 0, error: "empty file" };
- * invalid UTF-8 or an oversized file is a bad row at line 1.
+ * invalid UTF-8 or an oversized file is a bad row at line 1; a file that cannot be read to its end
+ * (a cut .gz, a disk error) is a truncated row: its one document is lost.
  */
 export async function* readText(file: string, options: ReaderOptions = {}): AsyncGenerator<Row> {
   const maxBytes = options.maxRecordBytes ?? DEFAULT_MAX_RECORD_BYTES;
@@ -32,7 +33,7 @@ export async function* readText(file: string, options: ReaderOptions = {}): Asyn
     }
   } catch (err) {
     if (!(err instanceof InputReadError)) throw err;
-    yield { line: 1, error: err.message };
+    yield truncatedRow(1, truncationOf(err));
     return;
   } finally {
     input.destroy();

@@ -137,9 +137,8 @@ describe("readCsv", () => {
     const good = rows.slice(0, -1);
     expect(good.length).toBeGreaterThan(100);
     expect(good.every((r, k) => r.line === k + 1 && "fields" in r && r.fields.id === String(k + 1))).toBe(true);
-    expect(rows[rows.length - 1]).toEqual({
-      line: good.length + 1,
-      error: `corrupt gzip data: unexpected end of file (file line ${good.length + 2})`,
-    });
+    const error = "corrupt gzip data: unexpected end of file";
+    const size = Math.floor(gz.length / 2);
+    expect(rows[rows.length - 1]).toEqual({ line: good.length + 1, error, truncated: { error, bytes_read: size, size } });
   });
 });

@@ -114,7 +114,7 @@ describe("readJsonl", () => {
     ]);
   });
 
-  it("turns a truncated .gz into one bad row at the line reached, after the lines before it", async () => {
+  it("turns a truncated .gz into a truncated row at the line reached, after the lines before it", async () => {
     const lines = Array.from({ length: 5000 }, (_, i) => JSON.stringify({ n: i + 1, body: `Inspection note ${i + 1} for bay ${i % 9}` }));
     const gz = zlib.gzipSync(lines.join("\n") + "\n");
     const file = `${tmp.dir}/cut.jsonl.gz`;
@@ -124,12 +124,16 @@ describe("readJsonl", () => {
     const good = rows.slice(0, -1);
     expect(good.length).toBeGreaterThan(100);
     expect(good).toEqual(good.map((_, k) => ({ line: k + 1, fields: JSON.parse(lines[k]) })));
-    expect(last).toEqual({ line: good.length + 1, error: "corrupt gzip data: unexpected end of file" });
+    const error = "corrupt gzip data: unexpected end of file";
+    const size = Math.floor(gz.length / 2);
+    expect(last).toEqual({ line: good.length + 1, error, truncated: { error, bytes_read: size, size } });
   });
 
   it("reports a .gz that is not gzip at all", async () => {
     const file = `${tmp.dir}/plain.jsonl.gz`;
     fs.writeFileSync(file, asJsonl(tickets));
-    expect(await collect(readJsonl(file))).toEqual([{ line: 1, error: "corrupt gzip data: incorrect header check" }]);
+    const error = "corrupt gzip data: incorrect header check";
+    // Nothing of it can be read: the whole file is lost, which is a truncation at its first line.
+    expect(await collect(readJsonl(file))).toEqual([{ line: 1, error, truncated: { error, bytes_read: expect.any(Number), size: fs.statSync(file).size } }]);
   });
 });

@@ -63,7 +63,7 @@ describe("openInput", () => {
   });
 
   it("describes OS read errors without a stack", () => {
-    expect(describeReadError(Object.assign(new Error("EIO: i/o error, read"), { code: "EIO" }))).toBe("read error: EIO: i/o error, read");
+    expect(describeReadError(Object.assign(new Error("EIO: i/o error, read"), { code: "EIO" }))).toBe("read error: input/output error");
     expect(describeReadError(Object.assign(new Error("x"), { code: "EISDIR" }))).toBe("read error: is a directory");
   });
 });

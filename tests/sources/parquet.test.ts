@@ -116,15 +116,18 @@ describe("parquet reader", () => {
   });
 
   it("reports a file that is not Parquet, a truncated one and an empty table", async () => {
-    expect(await collect(readParquet(tmp.put("fake.parquet", "ticket_id,body\nT-1,door\n")))).toEqual([{ line: 0, error: expect.stringMatching(/^not a readable Parquet file: /) }]);
+    // An unreadable footer loses the whole file: a truncated row, with no row read.
+    const unreadable = (size: number) => [{ line: 0, error: expect.stringMatching(/^not a readable Parquet file: /), truncated: { error: expect.stringMatching(/^not a readable Parquet file: /), bytes_read: 0, size } }];
+    expect(await collect(readParquet(tmp.put("fake.parquet", "ticket_id,body\nT-1,door\n")))).toEqual(unreadable(24));
     const whole = fs.readFileSync(write("whole.parquet"));
     const cut = tmp.put("cut.parquet", whole.subarray(0, whole.length - 100));
-    expect(await collect(readParquet(cut))).toEqual([{ line: 0, error: expect.stringMatching(/^not a readable Parquet file: /) }]);
+    expect(await collect(readParquet(cut))).toEqual(unreadable(whole.length - 100));
+    expect(await collect(readParquet(tmp.put("zero.parquet", "")))).toEqual([{ line: 0, error: "empty file" }]);
     const empty = parquetWriteBuffer({ columnData: [{ name: "body", data: [], type: "STRING" }] });
     expect(await collect(readParquet(tmp.put("empty.parquet", Buffer.from(empty))))).toEqual([{ line: 0, error: "empty file" }]);
   });
 
-  it("reports a damaged row group as one bad row and goes on with the next", async () => {
+  it("reports a damaged row group as a truncated row at the end, after reading the next", async () => {
     const file = write("damaged.parquet", { rowGroupSize: 1000, codec: "GZIP" });
     const bytes = fs.readFileSync(file);
     // Overwrite bytes inside the first row group's data (past the 4-byte magic, well before the second group).
@@ -132,7 +135,9 @@ describe("parquet reader", () => {
     fs.writeFileSync(file, bytes);
     const rows = await collect(readParquet(file));
     const bad = rows.filter((r) => "error" in r);
-    expect(bad).toEqual([{ line: 1, error: expect.stringMatching(/^row group 1 \(rows 1 to 1000\) cannot be read: /) }]);
+    const error = expect.stringMatching(/^row group 1 \(rows 1 to 1000\) cannot be read: /);
+    expect(bad).toEqual([{ line: 1, error, truncated: { error, rows_lost: 1000 } }]);
+    expect(rows[rows.length - 1]).toBe(bad[0]);
     expect(rows.filter((r) => "fields" in r).map((r) => r.line)).toEqual(Array.from({ length: 1500 }, (_, i) => 1001 + i));
   });
 

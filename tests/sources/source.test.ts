@@ -165,18 +165,21 @@ describe("readSource", () => {
     ]);
   });
 
-  it("reports a corrupt .gz mid-file and goes on with the next file", async () => {
+  it("reports a corrupt .gz mid-file as truncated, after its rows, and goes on with the next file", async () => {
     const lines = Array.from({ length: 3000 }, (_, i) => JSON.stringify({ body: `Axle counter reset ${i + 1} in sector ${i % 4}` })).join("\n");
     const gz = zlib.gzipSync(lines);
     fs.mkdirSync(path.join(base, "logs"), { recursive: true });
     fs.writeFileSync(path.join(base, "logs/a.jsonl.gz"), gz.subarray(0, gz.length - 200));
     tmp.put("read/logs/b.jsonl", '{"body":"after the damage"}\n');
     const items = await collect(readSource(spec({ name: "logs", files: "logs/*" }), base));
-    const bad = items.filter((i) => i.kind === "bad");
-    expect(bad).toHaveLength(1);
-    expect(bad[0]).toMatchObject({ entry: { file: "logs/a.jsonl.gz", error: "corrupt gzip data: unexpected end of file" } });
-    const badIndex = items.indexOf(bad[0]);
-    expect((bad[0] as { entry: { line: number } }).entry.line).toBe(badIndex + 1);
-    expect(items[items.length - 1]).toMatchObject({ kind: "record", text: "after the damage", origin: { file: "logs/b.jsonl", line: 1 } });
+    expect(items.filter((i) => i.kind === "bad")).toHaveLength(0);
+    const cut = items.filter((i) => i.kind === "truncated");
+    expect(cut).toHaveLength(1);
+    const at = items.indexOf(cut[0]);
+    const size = gz.length - 200;
+    expect(cut[0]).toEqual({ kind: "truncated", source: "logs", file: "logs/a.jsonl.gz", rows_read: at, truncated: { error: "corrupt gzip data: unexpected end of file", bytes_read: size, size } });
+    expect(at).toBeGreaterThan(100);
+    // The loss is not a row: the next file's first record takes the next default id.
+    expect(items[items.length - 1]).toMatchObject({ kind: "record", id: `logs:${at + 1}`, text: "after the damage", origin: { file: "logs/b.jsonl", line: 1 } });
   });
 });

@@ -63,12 +63,17 @@ describe(".zst input", () => {
     const e2 = await read(notZstd).catch((e: unknown) => e);
     expect(e2).toBeInstanceOf(InputReadError);
     expect((e2 as Error).message).toMatch(/^corrupt zstd data: /);
-    // A reader reports the damage as a bad row and keeps what came before.
+    // A reader reports the damage as a truncated row and keeps what came before.
     const lines = Array.from({ length: 3000 }, (_, i) => JSON.stringify({ body: `ticket ${i} ${"x".repeat(50)}` })).join("\n");
     const z = zstd(lines);
     const rows = await collect(readJsonl(tmp.put("cut.jsonl.zst", z.subarray(0, z.length - 20))));
     expect(rows.length).toBeGreaterThan(1);
-    expect(rows.at(-1)).toMatchObject({ error: expect.stringMatching(/^corrupt zstd data: /) });
+    const error = expect.stringMatching(/^corrupt zstd data: /);
+    expect(rows.at(-1)).toMatchObject({ error, truncated: { error, size: z.length - 20 } });
+    // The bytes decoded before the failure are known to within the decoder's 64 KiB steps.
+    const { bytes_read } = (rows.at(-1) as { truncated: { bytes_read: number } }).truncated;
+    expect(bytes_read).toBeLessThanOrEqual(z.length - 20);
+    expect(bytes_read).toBeGreaterThanOrEqual(Math.max(0, z.length - 20 - (1 << 16)));
   });
 
   it("is an empty file when the frame holds nothing", async () => {
