@@ -1,39 +1,16 @@
 // `siftpack report DIR [--out FILE]`: writes one self-contained HTML page about a build.
-import { open, readFile, realpath, stat, writeFile } from "node:fs/promises";
+import { readFile, realpath, stat, writeFile } from "node:fs/promises";
 import { basename, dirname, join, resolve } from "node:path";
 import type { CommandModule } from "yargs";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { buildReport } from "../report/build.js";
 import { FORMAT } from "../output/manifest.js";
+import { isSiftpackReport, REPORT_NAME } from "../output/build-files.js";
 
 interface Args {
   dir: string;
   out?: string;
   excerpts?: boolean;
-}
-
-/** The report's default name in the build directory: the one file besides the build's own that `verify` accepts there. */
-export const REPORT_NAME = "report.html";
-
-/** What every report starts with (src/report/page.ts): the doctype, and within the head the generator line. */
-const REPORT_START = "<!doctype html>";
-const REPORT_GENERATOR = '<meta name="generator" content="siftpack ';
-
-/** Whether `path` is a report siftpack wrote: it starts with the page's doctype and names siftpack as generator in its head. */
-export async function isSiftpackReport(path: string): Promise<boolean> {
-  let fh;
-  try {
-    fh = await open(path, "r");
-    const buf = Buffer.alloc(2048);
-    const { bytesRead } = await fh.read(buf, 0, buf.length, 0);
-    const head = buf.subarray(0, bytesRead).toString("utf8");
-    // The generator line comes before the title and style, well within the first 2 KiB.
-    return head.startsWith(REPORT_START) && head.includes(REPORT_GENERATOR);
-  } catch {
-    return false;
-  } finally {
-    await fh?.close();
-  }
 }
 
 /** The nearest directory holding `path` (at any depth) whose manifest.json is a siftpack manifest. */

@@ -1,38 +1,17 @@
 // `siftpack verify DIR [--inputs]`: re-hashes every output file (and optionally every input) against the
 // manifest, checks the manifest's own hash, and names every file in DIR that the manifest does not list.
-import { readdir } from "node:fs/promises";
 import { join, resolve } from "node:path";
 import type { CommandModule } from "yargs";
 import { readManifest, verifyOutput, type Manifest, type VerifyProblem } from "../output/manifest.js";
 import { readBuildInfo } from "../output/build-info.js";
 import { hashFile } from "../lib/hash.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { isSiftpackReport, REPORT_NAME } from "./report.js";
-
-/**
- * Files siftpack writes into a build directory besides those the manifest lists: the manifest
- * itself, build-info.json (times and paths, unhashed on purpose) and the default report of
- * `siftpack report` (accepted only when it is one). Only at the top of the directory.
- */
-const OWN_FILES = ["manifest.json", "build-info.json"];
+import { unlistedFiles } from "../output/build-files.js";
 
 /** Every entry under `dir` that is neither listed in the manifest nor one of siftpack's own files, in path order. */
-export async function unlistedFiles(dir: string, m: Manifest): Promise<VerifyProblem[]> {
-  const listed = new Set(m.files.map((f) => f.path));
-  const found: VerifyProblem[] = [];
-  const walk = async (rel: string): Promise<void> => {
-    const entries = await readdir(join(dir, rel), { withFileTypes: true });
-    entries.sort((a, b) => (a.name < b.name ? -1 : a.name > b.name ? 1 : 0));
-    for (const e of entries) {
-      const path = rel ? `${rel}/${e.name}` : e.name;
-      if (e.isDirectory()) await walk(path);
-      else if (listed.has(path) || (!rel && OWN_FILES.includes(path))) continue;
-      else if (!rel && path === REPORT_NAME && e.isFile() && (await isSiftpackReport(join(dir, path)))) continue;
-      else found.push({ path, problem: `not in the manifest: a ${e.isFile() ? "file" : e.isSymbolicLink() ? "symbolic link" : "special file"} the build did not write` });
-    }
-  };
-  await walk("");
-  return found;
+export async function unlistedProblems(dir: string, m: Manifest): Promise<VerifyProblem[]> {
+  const found = await unlistedFiles(dir, new Set(m.files.map((f) => f.path)));
+  return found.map(({ path, kind }) => ({ path, problem: `not in the manifest: a ${kind} the build did not write` }));
 }
 
 interface Args {
@@ -54,7 +33,7 @@ export const verifyCommand: CommandModule<object, Args> = {
   handler: async (args) => {
     const m = await readManifest(args.dir);
     const problems = await verifyOutput(args.dir, m);
-    const unlisted = await unlistedFiles(args.dir, m).catch((err) => {
+    const unlisted = await unlistedProblems(args.dir, m).catch((err) => {
       throw new SiftpackError("SP_VERIFY", `${args.dir}: cannot list the build directory: ${describeSystemError(err)}`, { cause: err });
     });
     let inputsChecked = 0;

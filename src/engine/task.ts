@@ -190,8 +190,13 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     const code = (caught as NodeJS.ErrnoException)?.code;
     const err = !(caught instanceof SiftpackError) && typeof code === "string" && /^E[A-Z]+$/.test(code) ? new SiftpackError("SP_OUTPUT", `phase ${phase.name}: writing ${work} failed: ${describeSystemError(caught)}`, { cause: caught }) : caught;
     await markFailed(work, phase.name, index, (err as Error)?.message ?? String(err)).catch(() => {});
-    // Into the task's log only: the caller reports the error itself.
-    appendFileSync(logPath(work, phase.name, index), JSON.stringify({ time: new Date().toISOString(), level: "error", phase: phase.name, task: index, error: (err as Error)?.message ?? String(err), msg: "task failed" }) + "\n");
+    // Into the task's log only: the caller reports the error itself. On a full or read-only disk
+    // this write fails too, and that failure must not take the place of the error it records.
+    try {
+      appendFileSync(logPath(work, phase.name, index), JSON.stringify({ time: new Date().toISOString(), level: "error", phase: phase.name, task: index, error: (err as Error)?.message ?? String(err), msg: "task failed" }) + "\n");
+    } catch {
+      // The marker above, when it could be written, says the same for `status`.
+    }
     throw err;
   }
   const report: CacheReport = {

@@ -1,18 +1,15 @@
 // The build is written into a staging directory beside the target and swapped in only when complete,
 // so a failed or interrupted build never leaves a half-written dataset under the target's name. The
 // target is replaced whole, so only a folder that is provably an earlier siftpack build is replaced.
-import { mkdir, open, readdir, readFile, realpath, rename, rm, stat } from "node:fs/promises";
+import { mkdir, readdir, readFile, realpath, rename, rm, stat } from "node:fs/promises";
 import { basename, dirname, isAbsolute, join, relative, resolve, sep } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { FORMAT } from "./manifest.js";
+import { unlistedFiles } from "./build-files.js";
 
 export function stagingDirOf(outDir: string): string {
   return join(dirname(outDir), `.${basename(outDir)}.partial`);
 }
-
-/** Files siftpack writes at the top of a build besides those its manifest lists (the report only when it is one). */
-const OWN_FILES = new Set(["manifest.json", "build-info.json"]);
-const REPORT = "report.html";
 
 /** True when `inner` is `outer` or lies under it. */
 function within(inner: string, outer: string): boolean {
@@ -44,19 +41,6 @@ export async function checkOutputPlace(outDir: string, pipelineFile: string, inp
   for (const input of inputs) if (within(await realPath(input), out)) throw refuse(`contains the input file ${input}`);
 }
 
-/** A report.html that `siftpack report` wrote (its doctype and generator line, as src/report/page.ts writes them), not a page of someone else's. */
-async function isOwnReport(path: string): Promise<boolean> {
-  const fh = await open(path, "r");
-  try {
-    const buf = Buffer.alloc(4096);
-    const { bytesRead } = await fh.read(buf, 0, buf.length, 0);
-    const head = buf.subarray(0, bytesRead).toString("utf8");
-    return head.startsWith("<!doctype html>") && head.includes('<meta name="generator" content="siftpack ');
-  } finally {
-    await fh.close();
-  }
-}
-
 /**
  * Why `dir` (an existing, non-empty directory) is not provably a siftpack build, naming the first
  * foreign file in path order; undefined when every file in it is one the build wrote.
@@ -79,21 +63,7 @@ async function notABuild(dir: string): Promise<string | undefined> {
   }
   if (!Array.isArray(files)) return notOurs("its manifest.json lists no files");
   const listed = new Set(files.map((f) => (f as { path?: unknown })?.path));
-  // Directories are walked, not judged: an empty one holds nothing to lose.
-  const walk = async (rel: string): Promise<string | undefined> => {
-    const entries = (await readdir(join(dir, rel), { withFileTypes: true })).sort((a, b) => (a.name < b.name ? -1 : a.name > b.name ? 1 : 0));
-    for (const e of entries) {
-      const path = rel ? `${rel}/${e.name}` : e.name;
-      if (e.isDirectory()) {
-        const found = await walk(path);
-        if (found) return found;
-      } else if (listed.has(path) || (!rel && OWN_FILES.has(path))) continue;
-      else if (!rel && path === REPORT && e.isFile() && (await isOwnReport(join(dir, path)))) continue;
-      else return path;
-    }
-    return undefined;
-  };
-  const foreign = await walk("");
+  const foreign = (await unlistedFiles(dir, listed, 1))[0]?.path;
   return foreign ? `it holds ${foreign}, which its manifest does not list; move that file away or choose another output directory` : undefined;
 }
 
