@@ -116,7 +116,12 @@ export class WorkerPool<Req, Res> {
 
   async close(): Promise<void> {
     const ws = this.workers.splice(0);
-    for (const w of ws) w.removeAllListeners("exit");
+    for (const w of ws) {
+      w.removeAllListeners("exit");
+      // An idle worker is unref'd; awaiting its end with nothing else keeping the event loop alive
+      // would let the process exit mid-await (exit code 13, seen when a stage failed in a worker).
+      w.ref();
+    }
     await Promise.all(ws.map((w) => w.terminate()));
   }
 }
