@@ -62,6 +62,8 @@ export class ShardWriter {
   private rows = 0;
   private readonly full: { tokens: Uint32Array; segments: Uint32Array; rows: number }[] = [];
   private shardIndex = 0;
+  /** The shard being written, if any. */
+  private writing: Promise<void> = Promise.resolve();
   readonly files: WrittenFile[] = [];
   // Key order here is the order in manifest.json; the packer fills documents and the cut counts.
   readonly stats: SplitStats = {
@@ -121,16 +123,25 @@ export class ShardWriter {
     return this.full.length;
   }
 
+  /**
+   * Starts writing the full shards, one at a time in order; returns once the shard before the last
+   * one started is written. So packing goes on while a shard goes to disk (and is synced), and at
+   * most one full shard waits in memory besides the one being filled.
+   */
   async writePending(): Promise<void> {
     while (this.full.length > 0) {
       const shard = this.full.shift()!;
-      await this.writeShard(shard.tokens, shard.segments, shard.rows);
+      await this.writing;
+      this.writing = this.writeShard(shard.tokens, shard.segments, shard.rows);
+      // Observed by the next writePending or by finish.
+      this.writing.catch(() => {});
     }
   }
 
-  /** Writes what is left (a final, shorter shard). */
+  /** Writes what is left (a final, shorter shard) once the shards before it are written. */
   async finish(): Promise<void> {
     await this.writePending();
+    await this.writing;
     if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows);
     this.rows = 0;
     const s = this.stats;
