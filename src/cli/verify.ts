@@ -49,12 +49,12 @@ export const verifyCommand: CommandModule<object, Args> = {
       }
     }
     const checked = m.files.length + inputsChecked;
+    // Files counted once however many problems they have (manifest.json can have two); manifest.json counts as a file checked.
+    const mismatched = new Set(problems.map((p) => p.path)).size;
     // Unlisted files last, so that the mismatches come first in the list.
     problems.push(...unlisted);
     if (args.json) process.stdout.write(JSON.stringify({ ok: problems.length === 0, files: m.files.length, inputs: inputsChecked, unlisted: unlisted.length, problems }, null, 2) + "\n");
     if (problems.length > 0) {
-      // Files counted once however many problems they have (manifest.json can have two); manifest.json counts as a file checked.
-      const mismatched = new Set(problems.slice(0, problems.length - unlisted.length).map((p) => p.path)).size;
       const parts = [];
       if (mismatched > 0) parts.push(`${mismatched} of ${checked + 1} files do not match the manifest`);
       if (unlisted.length > 0) parts.push(`${unlisted.length} file${unlisted.length === 1 ? " is" : "s are"} not in the manifest`);

@@ -4,7 +4,7 @@
 import { appendFileSync, mkdirSync } from "node:fs";
 import { availableParallelism } from "node:os";
 import { dirname, join } from "node:path";
-import { SiftpackError, describeSystemError } from "../errors.js";
+import { SiftpackError, describeSystemError, isSystemError } from "../errors.js";
 import { loadHasher } from "../lib/hash.js";
 import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
 import { recordPool } from "../parallel/record-pool.js";
@@ -187,8 +187,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   } catch (caught) {
     // A system error while writing the work directory (a full disk, a folder made read-only) is a
     // failure of this build, told in one line, not an internal error.
-    const code = (caught as NodeJS.ErrnoException)?.code;
-    const err = !(caught instanceof SiftpackError) && typeof code === "string" && /^E[A-Z]+$/.test(code) ? new SiftpackError("SP_OUTPUT", `phase ${phase.name}: writing ${work} failed: ${describeSystemError(caught)}`, { cause: caught }) : caught;
+    const err = !(caught instanceof SiftpackError) && isSystemError(caught) ? new SiftpackError("SP_OUTPUT", `phase ${phase.name}: writing ${work} failed: ${describeSystemError(caught)}`, { cause: caught }) : caught;
     await markFailed(work, phase.name, index, (err as Error)?.message ?? String(err)).catch(() => {});
     // Into the task's log only: the caller reports the error itself. On a full or read-only disk
     // this write fails too, and that failure must not take the place of the error it records.

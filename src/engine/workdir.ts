@@ -11,6 +11,7 @@ import { writeAtomic } from "../lib/work-files.js";
 import { hostname } from "node:os";
 import { join } from "node:path";
 import { SiftpackError } from "../errors.js";
+import { processAlive } from "../lib/process-alive.js";
 import type { Phase, PhasePlan } from "./plan.js";
 import type { CacheReport } from "../cache/build-cache.js";
 
@@ -103,14 +104,6 @@ export async function clearTemporaries(dir: string, mine?: { from: number; to: n
  */
 export type TaskState = { index: number; state: "done" | "failed" | "running" | "stopped" | "pending"; error?: string; lastLog?: string; host?: string; seconds?: number };
 
-function alive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch (err) {
-    return (err as NodeJS.ErrnoException).code === "EPERM";
-  }
-}
 
 /** Where each task of each phase stands, read from the markers and logs alone. */
 export async function phaseStates(work: string, phases: { name: string; tasks: number }[]): Promise<{ phase: string; tasks: TaskState[] }[]> {
@@ -130,7 +123,7 @@ export async function phaseStates(work: string, phases: { name: string; tasks: n
       if (done) tasks.push({ index: i, state: "done", seconds: done.seconds });
       else if (failed) tasks.push({ index: i, state: "failed", error: failed.error, host: failed.host, lastLog: await lastLine(logPath(work, ph.name, i)) });
       else if (started)
-        tasks.push({ index: i, state: started.host === hostname() && !alive(started.pid) ? "stopped" : "running", host: started.host, lastLog: await lastLine(logPath(work, ph.name, i)) });
+        tasks.push({ index: i, state: started.host === hostname() && !processAlive(started.pid) ? "stopped" : "running", host: started.host, lastLog: await lastLine(logPath(work, ph.name, i)) });
       else tasks.push({ index: i, state: "pending" });
     }
     out.push({ phase: ph.name, tasks });

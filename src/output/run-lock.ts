@@ -8,6 +8,7 @@ import { basename, dirname, join } from "node:path";
 import { setTimeout as sleep } from "node:timers/promises";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { Logger } from "../types.js";
+import { processAlive } from "../lib/process-alive.js";
 
 export function runLockOf(outDir: string): string {
   return join(dirname(outDir), `.${basename(outDir)}.lock`);
@@ -37,15 +38,6 @@ function parseHolder(text: string): Holder | undefined {
   }
 }
 
-/** Whether a process with this pid runs on this machine (EPERM: it does, as another user). */
-function alive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch (err) {
-    return (err as NodeJS.ErrnoException).code === "EPERM";
-  }
-}
 
 /** Creates the lock file holding `me`; false when it exists already. */
 async function create(path: string, me: Holder): Promise<boolean> {
@@ -116,7 +108,7 @@ export async function acquireRunLock(outDir: string, log: Logger): Promise<RunLo
         await takeOver(path, text);
         continue;
       }
-      if (other.host !== me.host || alive(other.pid) || attempt >= 5)
+      if (other.host !== me.host || processAlive(other.pid) || attempt >= 5)
         throw new SiftpackError(
           "SP_OUTPUT",
           `${outDir} is being built by another run (pid ${other.pid} on ${other.host}, since ${other.started}); wait for it to finish, or remove ${path} if that run is gone`,

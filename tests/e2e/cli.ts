@@ -1,6 +1,6 @@
 // Helpers for end-to-end tests: run the built CLI as a user would, in temp directories.
 import { spawnSync } from "node:child_process";
-import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, writeFileSync } from "node:fs";
+import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, statSync, writeFileSync } from "node:fs";
 import { parse as parseYaml, stringify as stringifyYaml } from "yaml";
 import { tmpdir } from "node:os";
 import { join, resolve } from "node:path";
@@ -86,4 +86,19 @@ export function demoPipelineWith(dir: string, name: string, tasks: number, edit:
   const file = join(dir, `pipelines-${name}`, "demo.yaml");
   writeFileSync(file, stringifyYaml(base));
   return file;
+}
+
+/** 4 KiB blocks under dir as tmpfs counts them, a file with several names (a unit file and its cache entry) counted once. */
+export function blocksOf(dir: string, seen = new Set<number>()): number {
+  let n = 0;
+  for (const e of readdirSync(dir, { withFileTypes: true })) {
+    const p = join(dir, e.name);
+    if (e.isDirectory()) n += 1 + blocksOf(p, seen);
+    else {
+      const st = statSync(p);
+      if (!seen.has(st.ino)) n += Math.ceil(st.size / 4096);
+      seen.add(st.ino);
+    }
+  }
+  return n;
 }

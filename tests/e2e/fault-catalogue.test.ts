@@ -10,7 +10,7 @@ import { hostname } from "node:os";
 import { dirname, join } from "node:path";
 import { gunzipSync, gzipSync } from "node:zlib";
 import { PretokenCounter, tokenizerJson, trainBpe } from "../../src/tokenizer/index.js";
-import { ROOT, demoCopy, outputFiles, siftpack, tempDir } from "./cli.js";
+import { ROOT, blocksOf, demoCopy, outputFiles, siftpack, tempDir } from "./cli.js";
 
 // ---------------------------------------------------------------------------------------------------
 // Invented inputs: tickets of a fictional tram depot network.
@@ -86,20 +86,6 @@ function filesOf(dir: string): Record<string, string> {
   return out;
 }
 
-/** 4 KiB blocks under dir as tmpfs counts them, a file with several names counted once (as in rebuild.test.ts). */
-function blocksOf(dir: string, seen = new Set<number>()): number {
-  let n = 0;
-  for (const e of readdirSync(dir, { withFileTypes: true })) {
-    const p = join(dir, e.name);
-    if (e.isDirectory()) n += 1 + blocksOf(p, seen);
-    else {
-      const st = statSync(p);
-      if (!seen.has(st.ino)) n += Math.ceil(st.size / 4096);
-      seen.add(st.ino);
-    }
-  }
-  return n;
-}
 
 // Mounts (a read-only folder, a full disk) need root: probed once; their rows are skipped without it.
 const mounts: string[] = [];

@@ -1,9 +1,9 @@
 // Rebuilding in CI: identical bytes, verify --inputs, the lock check, and a full disk.
 import { afterAll, describe, expect, it } from "vitest";
-import { readFileSync, writeFileSync, existsSync, readdirSync, statSync } from "node:fs";
+import { readFileSync, writeFileSync, existsSync } from "node:fs";
 import { spawnSync } from "node:child_process";
 import { join } from "node:path";
-import { demoCopy, outputFiles, siftpack, tempDir } from "./cli.js";
+import { blocksOf, demoCopy, outputFiles, siftpack, tempDir } from "./cli.js";
 
 describe("identical bytes", () => {
   it("across reruns, worker counts and the order files were created in", () => {
@@ -56,21 +56,6 @@ describe("verify --inputs and the lock check", () => {
   });
 });
 
-/** Disk space a directory takes, in 4 KiB blocks as tmpfs counts it. */
-/** 4 KiB blocks under dir, a file with several names (a unit file and its cache entry) counted once. */
-function blocksOf(dir: string, seen = new Set<number>()): number {
-  let n = 0;
-  for (const e of readdirSync(dir, { withFileTypes: true })) {
-    const p = join(dir, e.name);
-    if (e.isDirectory()) n += 1 + blocksOf(p, seen);
-    else {
-      const st = statSync(p);
-      if (!seen.has(st.ino)) n += Math.ceil(st.size / 4096);
-      seen.add(st.ino);
-    }
-  }
-  return n;
-}
 
 describe("a full disk", () => {
   // A disk with room for one build and its cache, but not for a second build beside the first.
