@@ -12,7 +12,7 @@ import { HeldOutSplit, ngramFigures, type NgramFigures } from "./held-out.js";
 import { NgramHasher } from "./ngram-hash.js";
 import { NearDupCounter } from "./near-dups.js";
 import { DEFAULT_LIMITS, TrainSet, type TrainSetLimits } from "./train-set.js";
-import { wordsOf, type WordForm } from "./words.js";
+import type { WordForm } from "./words.js";
 import { heldOutPairs, nearDupDescription, pairFigures, sig6, splitOrder, TEXT_SALT, wordsDescription, type NearDupSettings, type OverlapFigures } from "./figures.js";
 
 // The figures' types and helpers live in figures.ts (shared with the step-wise analysis); re-exported for existing importers.
@@ -46,7 +46,7 @@ export class SplitOverlap {
 
   /** One kept document of `split` (records without a split are train); `tokens` as packed. */
   add(split: string, text: string, tokens: ArrayLike<number> | undefined): void {
-    const count = this.hasher.hash(wordsOf(text, this.p.form));
+    const count = this.hasher.hashText(text, this.p.form);
     const { hi, lo } = this.hasher;
     const h = xxh64String(text);
     const textHi = Number(h >> 32n) ^ TEXT_SALT;

@@ -1,5 +1,7 @@
 // Word splitting and n-gram hashing: what counts as the same n-gram, and that distinct n-grams do not collide.
 import { describe, expect, it } from "vitest";
+import { readFileSync } from "node:fs";
+import fc from "fast-check";
 import { NgramHasher } from "../../src/overlap/ngram-hash.js";
 import { wordsOf } from "../../src/overlap/words.js";
 
@@ -49,4 +51,64 @@ describe("NgramHasher", () => {
     }
     expect(seen.size).toBe(600 * 600);
   });
+
+  it("has no collision among 1 000 000 distinct 3-grams, and each half about as few as a random 32-bit value", () => {
+    // All 100³ 3-grams of 100 words. For 10^6 random 32-bit values the expected number of colliding
+    // pairs is C(10^6, 2) / 2^32 ≈ 116 (the birthday bound); the polynomial may lose one bit, so a half
+    // is allowed up to 4× that, and the 64-bit hash none.
+    const words = Array.from({ length: 100 }, (_, i) => `tram${i}`);
+    const h = new NgramHasher(3);
+    const keys = new BigUint64Array(1e6);
+    const his = new Uint32Array(1e6);
+    let k = 0;
+    for (const a of words)
+      for (const b of words)
+        for (const c of words) {
+          h.hash([a, b, c]);
+          keys[k] = (BigInt(h.hi[0]) << 32n) | BigInt(h.lo[0]);
+          his[k++] = h.hi[0];
+        }
+    keys.sort();
+    his.sort();
+    let same64 = 0;
+    let sameHi = 0;
+    for (let i = 1; i < k; i++) {
+      if (keys[i] === keys[i - 1]) same64++;
+      if (his[i] === his[i - 1]) sameHi++;
+    }
+    expect(same64).toBe(0);
+    expect(sameHi).toBeLessThan(4 * 116);
+  });
 });
+
+describe("NgramHasher.hashText", () => {
+  const viaWords = (text: string, n: number) => {
+    const h = new NgramHasher(n);
+    const count = h.hash(wordsOf(text));
+    return [...h.hi.subarray(0, count), ...h.lo.subarray(0, count)];
+  };
+  const viaText = (text: string, n: number) => {
+    const h = new NgramHasher(n);
+    const count = h.hashText(text);
+    return [...h.hi.subarray(0, count), ...h.lo.subarray(0, count)];
+  };
+
+  it("equals hashing the word list, on any text (letters beyond the BMP, lone surrogates, marks, format characters)", () => {
+    const pieces = fc.constantFrom("a", "Z", "ß", "é", "e\u0301", "\u200B", "\u00AD", "𝐀", "𐐀", "\uD800", "\uDC00", "9", "٣", "漢", " ", ",", "—", "\uFB01", "Σ", "ΣΑ", "\n", "İ");
+    fc.assert(
+      fc.property(fc.array(fc.oneof(pieces, fc.string({ unit: "binary" })), { maxLength: 40 }), fc.integer({ min: 1, max: 4 }), (parts, n) => {
+        const text = parts.join("");
+        expect(viaText(text, n)).toEqual(viaWords(text, n));
+      }),
+      { numRuns: 2000 },
+    );
+  });
+
+  it("equals hashing the word list on real text (the licences in /usr/share/common-licenses)", () => {
+    // Real text this project did not write, as the README's checks use.
+    const text = readFileSync("/usr/share/common-licenses/GPL-3", "utf8");
+    expect(viaText(text, 13)).toEqual(viaWords(text, 13));
+    expect(viaText(text, 13).length).toBeGreaterThan(10000);
+  });
+});
+
