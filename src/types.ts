@@ -25,6 +25,11 @@ export interface DocRecord {
    * it): `text` is then "" and this is the real text's length in UTF-8 bytes.
    */
   textBytes?: number;
+  /**
+   * Set only where the build engine kept the text as its UTF-8 bytes (the pack phase, when the
+   * analyses there take bytes): `text` is then "", `textBytes` its length, and this the text.
+   */
+  utf8?: Uint8Array;
 }
 
 /** What a stage may do besides passing records on: account for the ones it drops. */

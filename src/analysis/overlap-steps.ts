@@ -137,8 +137,10 @@ class GroupCollector implements UnitCollector {
     const s = this.splits[code];
     if (r.tokens) s.unigram.add(r.tokens);
     this.items.push({ code, n: s.meta.documents++ });
-    this.texts.add(r.text, s.train);
-    this.chars += r.text.length;
+    // Bytes as they come from the unit file when the pack phase leaves them undecoded (what a batch holds anyway).
+    if (r.utf8) this.texts.addBytes(r.utf8, s.train);
+    else this.texts.add(r.text, s.train);
+    this.chars += r.utf8 ? r.utf8.length : r.text.length;
     if (this.items.length >= BATCH_DOCS || this.chars >= BATCH_CHARS) await this.send(false);
   }
 
@@ -541,7 +543,7 @@ function settings(ctx: AnalysisContext): { ngram: number; nearDup: NearDupSettin
 
 export const overlapSteps: AnalysisSteps = {
   key: "overlap",
-  usesText: true,
+  usesText: "utf8",
   applies: (ctx) => overlapApplies(ctx.config),
 
   async collectors(ctx, env) {

@@ -15,8 +15,12 @@ export interface AnalysisContext {
 export interface AnalysisSteps {
   /** The manifest key the figures go under. */
   key: string;
-  /** Whether the collectors read the records' text (else the pack phase may leave it unread: "" with `textBytes` set). */
-  usesText: boolean;
+  /**
+   * Whether the collectors read the records' text: as a string (true), only as its UTF-8 bytes
+   * ("utf8": `utf8` set, `text` ""), or not at all (false: "" with `textBytes` set). The pack phase
+   * decodes no more than the analyses ask.
+   */
+  usesText: boolean | "utf8";
   /** Whether the analysis applies to this build (e.g. the overlap figures need a held-out split). */
   applies(ctx: AnalysisContext): boolean;
   /**

@@ -217,6 +217,13 @@ class FrameReader {
     this.at += n;
     return s;
   }
+  /** A string's UTF-8 bytes, copied out (the read buffer is reused). */
+  bytes(): Uint8Array {
+    const n = this.u32();
+    const out = Buffer.from(this.b.subarray(this.at, this.at + n));
+    this.at += n;
+    return out;
+  }
   /** Passes over a string, giving its length in bytes. */
   skip(): number {
     const n = this.u32();
@@ -243,7 +250,8 @@ class FrameReader {
 
 /** What a reader asks of the frames: records' text (else "" with its length in `textBytes`), and records at all (else they are skipped). */
 export interface ReadOptions {
-  text?: boolean;
+  /** false: "" with `textBytes`; "utf8": "" with `textBytes` and the bytes in `utf8` (a copy). */
+  text?: boolean | "utf8";
   records?: boolean;
 }
 
@@ -257,12 +265,14 @@ function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
     const id = f.str();
     const source = f.str();
     const file = f.str();
-    const skip = o?.text === false;
-    const textBytes = skip ? f.skip() : 0;
-    const text = skip ? "" : f.str();
+    const mode = o?.text ?? true;
+    const utf8 = mode === "utf8" ? f.bytes() : undefined;
+    const textBytes = mode === false ? f.skip() : utf8 ? utf8.length : 0;
+    const text = mode === true ? f.str() : "";
     const meta = f.json<Record<string, unknown>>() ?? {};
     const r: DocRecord = { id, source, text, meta, origin: { file, line }, seq };
-    if (skip) r.textBytes = textBytes;
+    if (mode !== true) r.textBytes = textBytes;
+    if (utf8) r.utf8 = utf8;
     if (flags & HAS_SPLIT) r.split = f.str();
     if (flags & HAS_CLUSTER) r.cluster = f.str();
     if (flags & (TOKENS16 | TOKENS32)) r.tokens = f.tokens((flags & TOKENS32) !== 0);

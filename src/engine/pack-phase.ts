@@ -100,7 +100,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       // Drops made while reading (decisions applied now), in row order as the records come.
       const late: Fate[] = [];
       const ctx: StageContext = { seed: config.seed, log: env.log, workDir: dir, addOutputFile: () => {}, count: o.count, drop: (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }) };
-      const records = recordsBefore(env, k, u, ctx, { text: o.analyses.some((a) => a.steps.usesText) });
+      const records = recordsBefore(env, k, u, ctx, { text: textUse(o.analyses.map((a) => a.steps.usesText)) });
       const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
         if ("rec" in f || f.drop) {
           const r = "rec" in f ? f.rec : f.drop!.r;
@@ -163,4 +163,9 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
 
 function dropOf(e: Extract<UnitEvent, { k: "drop" }>): { r: DocRecord; reason: string; detail?: Record<string, unknown> } {
   return { r: dropRecord(e), reason: e.reason, detail: e.detail };
+}
+
+/** The least decoding of the records' text that serves every analysis (see AnalysisSteps.usesText). */
+function textUse(uses: (boolean | "utf8")[]): boolean | "utf8" {
+  return uses.includes(true) ? true : uses.includes("utf8") ? "utf8" : false;
 }

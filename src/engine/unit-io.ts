@@ -203,17 +203,18 @@ function applierOf(env: TaskEnv, k: number, count: StageContext["count"]): Promi
  * The records of unit `u` as they reach phase `k`: numbering fixed (after the read phase), mixture
  * weights of 0 applied (they need the final id), then the decisions of the keyed steps since the
  * last unit files, in pipeline order; drops are reported through `ctx.drop`. `text: false`: the
- * caller does not read the records' text, which is then left out where nothing else needs it.
+ * caller does not read the records' text, which is then left out where nothing else needs it;
+ * `text: "utf8"`: the caller reads only its UTF-8 bytes (DocRecord.utf8), likewise.
  */
-export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: StageContext, o: { text?: boolean } = {}): AsyncGenerator<DocRecord> {
+export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: StageContext, o: { text?: boolean | "utf8" } = {}): AsyncGenerator<DocRecord> {
   const { from, keyed } = sourceOf(env.plan, k);
   const apply: UnitApplier[] = [];
   for (const s of keyed) apply.push(await (await applierOf(env, s, ctx.count))(u));
   const weight = env.units[u].source.weight;
   const path = unitsFile(env.plan.workDir, from.name, u);
   env.meter.reading(path, 0, await fileSize(path));
-  // Without text only when no keyed step's decision is applied here (an applier may read or edit it).
-  next: for await (const e of readEvents(path, { text: o.text !== false || keyed.length > 0 })) {
+  // Text left undecoded only when no keyed step's decision is applied here (an applier may read or edit it).
+  next: for await (const e of readEvents(path, { text: keyed.length > 0 ? true : (o.text ?? true) })) {
     if (e.k !== "rec") continue;
     let r: DocRecord | undefined = e.r;
     if (from.does.kind === "read") {

@@ -61,6 +61,17 @@ describe("record frames", () => {
         const path = tmpFile(bytes);
         expect(await readAll(path)).toEqual([...events, end]);
         expect(await readEnd(path)).toEqual(end);
+        // Left undecoded: the text's length (and, asked for "utf8", its bytes), all else as written.
+        for (const mode of [false, "utf8"] as const) {
+          const got: UnitEvent[] = [];
+          for await (const e of readEvents(path, { text: mode })) got.push(e);
+          const want = [...events, end].map((e) => {
+            if (e.k !== "rec") return e;
+            const utf8 = Buffer.from(e.r.text, "utf8");
+            return { k: "rec", r: { ...e.r, text: "", textBytes: utf8.length, ...(mode === "utf8" ? { utf8 } : {}) } };
+          });
+          expect(got).toEqual(want);
+        }
       }),
       { numRuns: 60 },
     );
