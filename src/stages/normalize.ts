@@ -22,6 +22,36 @@ const CONTROL = /[\u0000-\u0008\u000B\u000C\u000E-\u001F\u007F-\u009F]/g;
 // common practice for training text, where such sequences are rare.)
 const ZERO_WIDTH = /[\u200B\u200C\u200D\u2060\uFEFF\u00AD]/g;
 const TRAILING = /[ \t\u00A0\u3000]+$/gm;
+const OTHER_LINE_END = /[\r\u2028\u2029]/;
+
+/** Space, tab, no-break space, ideographic space: what `trailing_spaces` removes before a line end. */
+function isTrailingSpace(c: number): boolean {
+  return c === 0x20 || c === 0x09 || c === 0xa0 || c === 0x3000;
+}
+
+/**
+ * `t` without spaces and tabs (incl. U+00A0, U+3000) before each "\n" and at the end: the same as
+ * replacing /[ \t\u00A0\u3000]+$/gm, found line by line from the newlines instead of at every space
+ * (a regular expression tries its end-of-line test after each space of the text).
+ */
+export function stripTrailingSpaces(t: string): string {
+  // The expression's line ends include \r, U+2028 and U+2029 (left when `newlines` is off): rare, so it serves them.
+  if (OTHER_LINE_END.test(t)) return t.replace(TRAILING, "");
+  let out = "";
+  let from = 0;
+  for (let at = 0; at <= t.length; ) {
+    let end = t.indexOf("\n", at);
+    if (end < 0) end = t.length;
+    let cut = end;
+    while (cut > at && isTrailingSpace(t.charCodeAt(cut - 1))) cut--;
+    if (cut < end) {
+      out += t.slice(from, cut);
+      from = end;
+    }
+    at = end + 1;
+  }
+  return from === 0 ? t : out + t.slice(from);
+}
 
 /** Applies the normalization to one text; exported for tests and library users. */
 export function normalizeText(text: string, o: NormalizeOptions): string {
@@ -30,7 +60,7 @@ export function normalizeText(text: string, o: NormalizeOptions): string {
   if (o.control_chars) t = t.replace(CONTROL, "");
   if (o.zero_width) t = t.replace(ZERO_WIDTH, "");
   if (o.form !== "none") t = t.normalize(o.form);
-  if (o.trailing_spaces) t = t.replace(TRAILING, "");
+  if (o.trailing_spaces) t = stripTrailingSpaces(t);
   if (o.newlines) {
     const keep = "\n".repeat(o.max_blank_lines + 1);
     t = t.replace(new RegExp(`\\n{${o.max_blank_lines + 2},}`, "g"), keep);

@@ -1,7 +1,8 @@
 // normalize: the Unicode forms checked against the Unicode Consortium's conformance file, plus the clean-up rules.
 import { describe, expect, it } from "vitest";
 import { execFileSync } from "node:child_process";
-import { normalizeText, normalizeOptions, type NormalizeOptions } from "../../src/stages/normalize.js";
+import { normalizeText, normalizeOptions, stripTrailingSpaces, type NormalizeOptions } from "../../src/stages/normalize.js";
+import fc from "fast-check";
 
 const defaults = (o: Partial<NormalizeOptions> = {}): NormalizeOptions => ({ ...normalizeOptions.check({}, [], []), ...o });
 const formOnly = (form: NormalizeOptions["form"]) =>
@@ -59,5 +60,18 @@ describe("normalize: clean-up", () => {
   it("is idempotent", () => {
     const s = "  x\r\n\u00a0\uff21\u0301  \n\n\n\ny\u200b ";
     expect(normalizeText(normalizeText(s, o), o)).toBe(normalizeText(s, o));
+  });
+});
+
+describe("normalize: trailing spaces", () => {
+  it("stripTrailingSpaces equals the regular expression /[ \\t\\u00A0\\u3000]+$/gm on any text", () => {
+    const piece = fc.constantFrom(" ", "\t", "\u00A0", "\u3000", "\n", "\r", "\r\n", "\u2028", "\u2029", "\u0085", "tram", "é", "x y");
+    fc.assert(
+      fc.property(fc.array(fc.oneof(piece, fc.string()), { maxLength: 30 }), (parts) => {
+        const t = parts.join("");
+        expect(stripTrailingSpaces(t)).toBe(t.replace(/[ \t\u00A0\u3000]+$/gm, ""));
+      }),
+      { numRuns: 3000 },
+    );
   });
 });
