@@ -2,7 +2,8 @@
 // [u32 line][u32 count][u64 xxh64 of the text][count × u32 id], in the order the records reached
 // the tokenizer. An entry is used only if the text still hashes the same, so stages that change
 // text (or a changed input file) invalidate exactly the records whose text changed.
-import { closeSync, openSync, readSync, writeSync } from "node:fs";
+import { closeSync, openSync, readSync, write } from "node:fs";
+import { promisify } from "node:util";
 
 /** Bytes before an entry's ids: line, count, text hash. */
 const HEAD = 16;
@@ -74,19 +75,32 @@ export class TokenStoreReader {
   }
 }
 
+/**
+ * Writes entries; full 1 MiB chunks go to disk in the background (the build thread goes on
+ * tokenizing), at most `BACKLOG` of them waiting: `settle()` waits when more are, `close()` for all.
+ */
 export class TokenStoreWriter {
   private readonly fd: number;
-  private chunk = Buffer.alloc(1 << 20);
+  private chunk = Buffer.allocUnsafe(CHUNK);
   private used = 0;
+  private writes: Promise<void> = Promise.resolve();
+  private waiting = 0;
+  private failure: unknown;
 
   constructor(path: string) {
     this.fd = openSync(path, "w");
   }
 
+  /** Chunks written or being written in the background. */
+  get backlog(): number {
+    return this.waiting;
+  }
+
   add(line: number, textHash: bigint, ids: Uint32Array): void {
+    if (this.failure) throw this.failure;
     const need = HEAD + ids.length * 4;
     if (this.used + need > this.chunk.length) this.flush();
-    if (need > this.chunk.length) this.chunk = Buffer.alloc(need);
+    if (need > this.chunk.length) this.chunk = Buffer.allocUnsafe(need);
     this.chunk.writeUInt32LE(line, this.used);
     this.chunk.writeUInt32LE(ids.length, this.used + 4);
     this.chunk.writeBigUInt64LE(textHash, this.used + 8);
@@ -94,14 +108,37 @@ export class TokenStoreWriter {
     this.used += need;
   }
 
-  private flush(): void {
-    let off = 0;
-    while (off < this.used) off += writeSync(this.fd, this.chunk, off, this.used - off);
-    this.used = 0;
+  /** Waits while more than BACKLOG chunks are still to be written. */
+  async settle(): Promise<void> {
+    if (this.waiting > BACKLOG) await this.writes;
+    if (this.failure) throw this.failure;
   }
 
-  close(): void {
-    this.flush();
-    closeSync(this.fd);
+  private flush(): void {
+    if (this.used === 0) return;
+    const bytes = this.chunk.subarray(0, this.used);
+    this.chunk = Buffer.allocUnsafe(CHUNK);
+    this.used = 0;
+    this.waiting++;
+    this.writes = this.writes
+      .then(() => writeAll(this.fd, bytes))
+      .catch((e: unknown) => void (this.failure ??= e))
+      .finally(() => void this.waiting--);
   }
+
+  /** Writes what is left and closes the file; throws a write's error. */
+  async close(): Promise<void> {
+    this.flush();
+    await this.writes;
+    closeSync(this.fd);
+    if (this.failure) throw this.failure;
+  }
+}
+
+const CHUNK = 1 << 20;
+const BACKLOG = 4;
+const writeAsync = promisify(write);
+
+async function writeAll(fd: number, bytes: Uint8Array): Promise<void> {
+  for (let off = 0; off < bytes.length; ) off += (await writeAsync(fd, bytes, off, bytes.length - off)).bytesWritten;
 }

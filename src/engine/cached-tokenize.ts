@@ -43,10 +43,16 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
     let writing: { id: string; writer: TokenStoreWriter; tmp: string; commit: () => Promise<void> } | undefined;
     const closeWriting = async (complete: boolean) => {
       if (!writing) return;
-      writing.writer.close();
-      if (complete) await writing.commit();
-      else await rm(writing.tmp, { force: true });
+      const w = writing;
       writing = undefined;
+      if (complete) {
+        await w.writer.close();
+        await w.commit();
+      } else {
+        // Failing already: the write's own error (if any) would hide the first one.
+        await w.writer.close().catch(() => undefined);
+        await rm(w.tmp, { force: true });
+      }
     };
 
     async function* batches(): AsyncGenerator<Pending> {
@@ -106,6 +112,7 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
               writing = { id, writer: new TokenStoreWriter(out.tmp), tmp: out.tmp, commit: out.commit };
             }
             writing.writer.add(r.origin.line, xxh64String(r.text), tokens);
+            if (writing.writer.backlog > 0) await writing.writer.settle();
           }
           r.tokens = tokens;
           yield r;
