@@ -5,8 +5,8 @@
 // Collect (per packing group, in the group's output order): each document's words are cut, its word
 // n-grams and text hashed and, when near-duplicates are counted, its MinHash signature made (in
 // batches, on worker threads when the task has several). Every n-gram key and salted text
-// fingerprint goes to the partition of its key: a train document's keys go there bare (sorted and
-// without repeats per batch, on the hashing thread, since only presence matters), a held-out document's keys go there
+// fingerprint goes to the partition of its key: a train document's keys go there bare (grouped by
+// partition on the hashing thread; only presence matters), a held-out document's keys go there
 // tagged with its split and its number within the split, because the figures count per held-out
 // position and per held-out document. Every band key of a signature goes to the partition of that
 // key likewise, and the signature itself (with its band keys) to the group's own file.
@@ -49,7 +49,7 @@ import { HashMap64 } from "../overlap/hash-map64.js";
 import { heldOutPairs, nearDupDescription, ngramCounts, pairFigures, splitOrder, wordsDescription, type NearDupSettings, type OverlapFigures } from "../overlap/figures.js";
 import type { WordForm } from "../overlap/words.js";
 import { DISTINCT_BUDGET, DistinctKeys, HI, LO } from "./distinct-keys.js";
-import { hashPool, TextBatch, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
+import { hashPool, keyPartition, TextBatch, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
 import { nearDupOf, overlapApplies, vocabSizeOf } from "./overlap-settings.js";
 
 /** Texts per hashing batch, and the text size that closes a batch early. */
@@ -69,15 +69,6 @@ const TWO32 = 4294967296;
 
 /** The words' Unicode form, as the one-pass analyzer and `decontaminate` use. */
 const FORM: WordForm = "NFKC";
-
-/**
- * Partition of an n-gram key or text fingerprint: by the range its high half falls in, so that a
- * sorted buffer of keys is already cut into partitions in order. (Band keys go by key mod
- * partitions, as in the dedup stage; they are separate files.)
- */
-export function keyPartition(hi: number, partitions: number): number {
-  return Math.floor((hi * partitions) / TWO32);
-}
 
 interface SplitMeta {
   name: string;
@@ -108,7 +99,7 @@ class GroupCollector implements UnitCollector {
   private chars = 0;
   private readonly pending: { items: { code: number; n: number }[]; result: Promise<HashedBatch> }[] = [];
   private rows = 0;
-  /** Train's keys by partition, as sorted runs (one per batch) of 64-bit keys. */
+  /** Train's keys by partition (64-bit keys, repeats kept: the partition step counts distinct ones). */
   private readonly train: Grow<Uint32Array>[];
   private readonly held: number[][];
   private readonly bandsTrain: number[][];
@@ -146,7 +137,7 @@ class GroupCollector implements UnitCollector {
 
   private async send(drain: boolean): Promise<void> {
     if (this.items.length > 0) {
-      const result = this.pool.submit(this.texts.take());
+      const result = this.pool.submit(this.texts.take(this.out.partitions));
       result.catch(() => undefined); // awaited in order below
       this.pending.push({ items: this.items, result });
       this.items = [];
@@ -189,16 +180,8 @@ class GroupCollector implements UnitCollector {
       this.rows++;
     }
     if (sigRows) await this.out.own("sig.bin").write(new Uint8Array(sigRows.buffer));
-    // Train's keys come sorted: the keys of one partition are contiguous.
-    const w = res.trainKeys;
-    for (let from = 0; from < w.length / 2; ) {
-      const p = keyPartition(w[2 * from + HI], P);
-      let to = from + 1;
-      while (to < w.length / 2 && keyPartition(w[2 * to + HI], P) === p) to++;
-      const t = this.train[p];
-      for (let x = 2 * from; x < 2 * to; x++) t.push(w[x]);
-      from = to;
-    }
+    // Train's keys come grouped by partition.
+    for (let p = 0; p < P; p++) this.train[p].append(res.trainKeys.subarray(2 * res.trainStarts[p], 2 * res.trainStarts[p + 1]));
     for (let p = 0; p < P; p++) await this.flushParts(p, false);
   }
 

@@ -20,6 +20,17 @@ export class Grow<T extends Typed> {
     this.data[this.length++] = x;
   }
 
+  /** Appends all of `xs`. */
+  append(xs: ArrayLike<number>): void {
+    if (this.length + xs.length > this.data.length) {
+      const next = this.make(Math.max(this.data.length * 2, this.length + xs.length));
+      next.set(this.data.subarray(0, this.length) as any);
+      this.data = next;
+    }
+    this.data.set(xs as any, this.length);
+    this.length += xs.length;
+  }
+
   get(i: number): number {
     return this.data[i];
   }
