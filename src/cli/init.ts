@@ -41,9 +41,11 @@ export const initCommand: CommandModule<object, Args> = {
     for (const s of p.sources) {
       const g = s.group;
       summary += `${g.name}: ${g.files.length} file${g.files.length === 1 ? "" : "s"} (${g.sniffed.format}${g.sniffed.compression === "none" ? "" : `, ${g.sniffed.compression}`}), ${s.sample.rows} rows sampled\n`;
-      if (g.sniffed.format !== "text") summary += `  text: ${s.fields.text} (${Math.round(s.fields.textMean)} characters on average); id: ${s.fields.id ?? "(none: records are numbered)"}; meta: ${s.fields.meta.join(", ") || "(none)"}\n`;
+      if (g.sniffed.format !== "text") summary += `  text: ${s.fields.text} (${Math.round(s.fields.textMean)} characters on average); id: ${s.fields.id ?? "(none: records are named by file and line)"}; meta: ${s.fields.meta.join(", ") || "(none)"}\n`;
       for (const e of s.sample.errors) summary += `  unreadable: ${e}\n`;
     }
+    const g = p.stages.group;
+    if (g) summary += `split by ${g.field}: records of one ${g.noun} stay in one split, so held-out text shares no ${g.noun} with training text\n`;
     process.stdout.write(`${summary}wrote ${out}; check it with \`siftpack plan ${out}\`, then build with \`siftpack run ${out}\`\n`);
   },
 };

@@ -1,10 +1,9 @@
-// `siftpack plan FILE`: validates the pipeline file and prints the resolved plan, defaults filled in.
+// `siftpack plan FILE`: checks the pipeline file and everything a run needs from it, and prints the resolved plan, defaults filled in.
 import type { CommandModule } from "yargs";
 import { stringify } from "yaml";
-import { loadPipeline, displayPath } from "../pipeline/load.js";
-import { listFiles } from "../sources/source.js";
+import { displayPath } from "../pipeline/load.js";
+import { checkPipeline, firstRowWarnings } from "../pipeline/preflight.js";
 import { STAGES } from "../stages/index.js";
-import { checkTokenizerFiles } from "../stages/tokenize.js";
 import { dirname, join, resolve, sep } from "node:path";
 import { fileURLToPath } from "node:url";
 import { planPhases } from "../engine/plan.js";
@@ -66,8 +65,7 @@ export function explainedStage(s: StageEntry): { settings: Record<string, unknow
 const selfCommand = () => [process.execPath, fileURLToPath(new URL("../../bin/siftpack.js", import.meta.url))];
 
 async function taskPlanOutput(args: Args): Promise<void> {
-  const p = await loadPipeline(args.file);
-  checkTokenizerFiles(p.config.stages, p.baseDir);
+  const p = await checkPipeline(args.file);
   const plan = planPhases(p);
   const units = await unitsOf(p);
   const info = { pipeline: plan.pipeline, workDir: plan.workDir, outDir: plan.outDir, units: units.length, phases: plan.phases.map(({ name, tasks, summary }) => ({ name, tasks, summary })) };
@@ -102,7 +100,7 @@ async function taskPlanOutput(args: Args): Promise<void> {
 
 export const planCommand: CommandModule<object, Args> = {
   command: "plan <file>",
-  describe: "validate a pipeline file and print the resolved plan",
+  describe: "check a pipeline file and everything it names (inputs, protected and tokenizer files, output folder); print the resolved plan",
   builder: (y) =>
     y
       .positional("file", { type: "string", demandOption: true })
@@ -121,15 +119,15 @@ export const planCommand: CommandModule<object, Args> = {
       .option("wait", { type: "string", describe: "with --emit kubernetes: how long submit.sh waits for a phase (default 24h)" }),
   handler: async (args) => {
     if (args.tasks || args.emit) return taskPlanOutput(args);
-    const p = await loadPipeline(args.file);
-    checkTokenizerFiles(p.config.stages, p.baseDir);
-    const files: Record<string, string[]> = {};
-    for (const s of p.config.sources) files[s.name] = await listFiles(s, p.baseDir);
+    // Every problem a run would meet before reading records, at once (exit 2 or 1 listing each).
+    const p = await checkPipeline(args.file);
+    const files = p.inputs;
+    const warnings = await firstRowWarnings(p);
     const explained = p.config.stages.map(explainedStage);
     const stages = p.config.stages.map((s, i) => ({ [s.name]: explained[i].settings }));
     // Derived figures apart from the settings, so that the printed settings are a valid pipeline file.
     const derived = p.config.stages.map((s, i) => ({ stage: i + 1, name: s.name, ...explained[i].figures })).filter((d) => Object.keys(d).length > 2);
-    const plan = { pipeline: displayPath(p.file), hash: p.hash, ...p.config, output: { ...p.config.output, resolved_dir: displayPath(p.outDir) }, stages, derived, inputs: files };
+    const plan = { pipeline: displayPath(p.file), hash: p.hash, ...p.config, output: { ...p.config.output, resolved_dir: displayPath(p.outDir) }, stages, derived, inputs: files, ...(warnings.length ? { warnings } : {}) };
     if (args.json) {
       process.stdout.write(JSON.stringify(plan, null, 2) + "\n");
       return;
@@ -143,6 +141,8 @@ export const planCommand: CommandModule<object, Args> = {
     }
     out += "# input files\n";
     for (const [name, list] of Object.entries(files)) out += `#   ${name}: ${list.length} file${list.length === 1 ? "" : "s"}${list.length ? ` (${list.slice(0, 3).join(", ")}${list.length > 3 ? ", …" : ""})` : ""}\n`;
+    // Comments like the rest, so the output stays a valid pipeline file.
+    for (const w of warnings) out += `# warning: ${w}\n`;
     process.stdout.write(out);
   },
 };

@@ -1,9 +1,10 @@
 // `siftpack run FILE`: builds the dataset and prints a summary; with --lock, records or checks a lock file.
 import type { CommandModule } from "yargs";
-import { loadPipeline, displayPath } from "../pipeline/load.js";
+import { displayPath, type LoadedPipeline } from "../pipeline/load.js";
+import { checkPipeline } from "../pipeline/preflight.js";
 import { runPipeline } from "../engine/run.js";
 import { compareLocks, lockOf, readLock, writeLock } from "../output/lock.js";
-import { checkTokenizerFiles } from "../stages/tokenize.js";
+import { discardStaging } from "../output/output-dir.js";
 import { SiftpackError } from "../errors.js";
 import { progressDisplay } from "./progress.js";
 import { formatSummary } from "./summary.js";
@@ -49,10 +50,10 @@ export const runCommand: CommandModule<object, Args> = {
     const display = progressDisplay({ quiet: args.quiet });
     const log = display.log;
     let finished = false;
+    let pipeline: LoadedPipeline | undefined;
     try {
-      const pipeline = await loadPipeline(args.file, { outDir: args.out });
-      // Tokenizer files are checked before anything is written beside the output.
-      checkTokenizerFiles(pipeline.config.stages, pipeline.baseDir);
+      // What `plan` checks (inputs, protected and tokenizer files, the output folder), before anything is written beside the output.
+      pipeline = await checkPipeline(args.file, { outDir: args.out });
       const locked = args.lock ? await readLock(args.lock) : undefined;
       if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
       const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers, keepWork: args.keepWork });
@@ -71,6 +72,15 @@ export const runCommand: CommandModule<object, Args> = {
           if (!args.json) process.stdout.write(`lock ${args.lock} ${locked ? "updated" : "written"} (build ${now.build_hash})\n`);
         }
       }
+    } catch (err) {
+      // A failed build leaves no half-written .<out>.partial behind (the cache beside it stays, for the next run).
+      if (!finished && pipeline) {
+        const left = await discardStaging(pipeline.outDir);
+        if (left?.kept === "finished") log.warn({ staging: left.path }, `the finished build could not be moved into place; it is in ${left.path}`);
+        // On a read-only or full disk the removal fails too; that must not add to the build's own error.
+        else if (left) log.debug({ staging: left.path }, `cannot remove ${left.path}; the next run removes it`);
+      }
+      throw err;
     } finally {
       // Erases the progress lines before the error is printed; a failed build gets no table.
       if (!finished) display.finish(false);

@@ -48,8 +48,8 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     range: unit.range ?? null,
     part: part?.xxh64 ?? null,
     unit: "read",
-    // Bumped when what reading a file yields changes within a version (2: record frames, truncated files counted as loss).
-    reading: 2,
+    // Bumped when what reading a file yields changes within a version (2: record frames, truncated files counted as loss; 3: default ids named by file and line).
+    reading: 3,
     siftpack: toolVersion(),
     source: spec,
     file: unit.path,

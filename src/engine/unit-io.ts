@@ -1,9 +1,9 @@
 // What every task needs: the units of work in build order, the plan's key, numbering fixed across
-// files and parts, and reading / writing one unit's records between phases.
+// the parts of a file, and reading / writing one unit's records between phases.
 import { open, stat } from "node:fs/promises";
 import { compressionOf } from "../sources/open.js";
 import { join } from "node:path";
-import { listFiles } from "../sources/source.js";
+import { defaultId, idFileOf, listFiles } from "../sources/source.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { SourceConfig } from "../pipeline/config.js";
 import { toolVersion } from "../output/manifest.js";
@@ -111,14 +111,14 @@ export interface TaskEnv {
 /**
  * Where the read phase's numbering of a unit is fixed, once, as its records leave the read phase:
  * a part of a file numbers rows (`seq`) from 0 and lines from 1, so the rows and lines of the file's
- * earlier parts are added; default ids (`<source>:<n>`) count rows across a source's units.
+ * earlier parts are added, and default ids (file and line) are made from the file-wide line.
  */
 export interface UnitFix {
-  /** Rows of the source's earlier units (for default ids). */
-  ids: number;
   /** Rows and physical lines of the file's earlier parts. */
   rows: number;
   lines: number;
+  /** The file as default ids name it (idFileOf). */
+  idFile: string;
 }
 
 const fixes = new WeakMap<TaskEnv, UnitFix[]>();
@@ -132,15 +132,12 @@ export function unitFixes(env: TaskEnv): UnitFix[] {
 function makeFixes(env: TaskEnv): UnitFix[] {
   const facts = new Map<number, TaskDone["units"][string]>();
   for (const d of env.done.get("read") ?? []) for (const [u, f] of Object.entries(d.units)) facts.set(Number(u), f);
-  const bySource = new Map<string, number>();
   const out: UnitFix[] = [];
   for (const unit of env.units) {
-    const ids = bySource.get(unit.source.name) ?? 0;
-    bySource.set(unit.source.name, ids + (facts.get(unit.u)?.rows ?? 0));
     const later = unit.range !== undefined && unit.range.start > 0 && unit.u > 0;
     const prev = out[unit.u - 1];
     const before = facts.get(unit.u - 1);
-    out.push({ ids, rows: later ? prev.rows + (before?.rows ?? 0) : 0, lines: later ? prev.lines + (before?.lines ?? 0) : 0 });
+    out.push({ rows: later ? prev.rows + (before?.rows ?? 0) : 0, lines: later ? prev.lines + (before?.lines ?? 0) : 0, idFile: idFileOf(unit.source, env.p.baseDir, unit.path) });
   }
   return out;
 }
@@ -148,9 +145,11 @@ function makeFixes(env: TaskEnv): UnitFix[] {
 /** Fixes a record (or a drop) read from the read phase's file of unit u: its row, line and default id. */
 export function fixFromRead(env: TaskEnv, u: number, r: { id: string; seq: number; origin: { line: number } }): void {
   const f = unitFixes(env)[u];
-  if (env.units[u].source.id === undefined) r.id = `${env.units[u].source.name}:${f.ids + r.seq + 1}`;
+  const source = env.units[u].source;
   r.seq += f.rows;
   r.origin.line += f.lines;
+  // Named after the file-wide line: the same id for any unit_mb, task count or worker count.
+  if (source.id === undefined) r.id = defaultId(source, f.idFile, r.origin.line);
 }
 
 /** A unit's records (and, after read, its drops and bad rows) as a phase left them, in record frames. */

@@ -21,6 +21,17 @@ export interface StageProposal {
   records?: number;
   /** Meta fields found in every source, with their distinct values in the sample. */
   groupFields: [string, number][];
+  /** The group key proposed as split.by: a page, document, thread or author field whose values repeat. */
+  group?: {
+    field: string;
+    noun: string;
+    /** Distinct values in the sample, and rows per value on average (of the first source holding it). */
+    values: number;
+    perValue: number;
+    /** Sources holding it, and the others (split record by record). */
+    sources: string[];
+    others: string[];
+  };
 }
 
 /** YAML 1.2 reads these plain words as booleans, null or numbers; they are quoted. */
@@ -49,7 +60,7 @@ function sourceBlock(p: SourceProposal): string[] {
     lines.push(`    text: ${scalar(f.text)}${" ".repeat(Math.max(1, 24 - f.text.length))}# the longest string field on average: ${Math.round(f.textMean)} characters`);
   }
   if (f.id) lines.push(`    id: ${scalar(f.id)}${" ".repeat(Math.max(1, 26 - f.id.length))}# unique in the sample; a repeated id later is quarantined`);
-  else if (g.sniffed.format !== "text") lines.push(`    # id: no field was unique in the sample; records are numbered "${g.name}:1", "${g.name}:2", …`);
+  else if (g.sniffed.format !== "text") lines.push(`    # id: no field was unique in the sample; records are named by file and line ("${g.name}:<file>:<line>"), which no other file changes`);
   if (f.meta.length > 0) {
     const list = `[${f.meta.map(scalar).join(", ")}]`;
     lines.push(`    meta: ${list}${" ".repeat(Math.max(1, 24 - list.length))}# short repeating values, carried along (split.by can use them)`);
@@ -82,9 +93,18 @@ export function pipelineText(sources: SourceProposal[], stages: StageProposal, o
     .slice(0, 3)
     .map(([k, n]) => `${k} (${n} values)`)
     .join(", ");
-  if (hint) L.push(`  # \`by: FIELD\` keeps all records with one value of FIELD in one split; fields in the sample: ${hint}`);
   const count = stages.records !== undefined ? `: about ${Math.round(stages.records * stages.holdout)} of the ${stages.records} records each` : "";
-  L.push(`  - split: { holdout: { val: ${stages.holdout}, test: ${stages.holdout} } }   # held-out shares${count}`);
+  const g = stages.group;
+  if (g) {
+    // Why a group matters, where the choice is made: split record by record, the parts of one page land in train and val alike.
+    L.push(`  # by: ${g.field} keeps all records of one ${g.noun} in one split (${g.values} values in the sample, ${g.perValue.toFixed(1)} records each on average).`);
+    L.push(`  # Without it, records are split one by one: parts of one ${g.noun} land in train and in val/test, and the held-out`);
+    L.push(`  # figures measure memory of that ${g.noun} rather than generalisation.${g.others.length ? ` Sources without ${g.field} (${g.others.join(", ")}) are split record by record.` : ""}`);
+    L.push(`  - split: { by: ${scalar(g.field)}, holdout: { val: ${stages.holdout}, test: ${stages.holdout} } }   # held-out shares of the ${g.noun}s`);
+  } else {
+    if (hint) L.push(`  # \`by: FIELD\` keeps all records with one value of FIELD in one split; fields in the sample: ${hint}`);
+    L.push(`  - split: { holdout: { val: ${stages.holdout}, test: ${stages.holdout} } }   # held-out shares${count}`);
+  }
   L.push(`  - tokenize: { encoding: gpt2, eos: true }   # or r50k_base, p50k_base, cl100k_base, o200k_base: the model's own`);
   L.push(`  - pack: { length: 1024, strategy: best-fit }   # length: the model's context length`);
   L.push(`output:`);

@@ -29,6 +29,27 @@ export interface Proposal {
 const HOLDOUTS = [0.01, 0.02, 0.05, 0.1];
 const MIN_HELD_OUT = 50;
 
+/**
+ * split.by names one field for every source: the group key most sources have (the first of them on
+ * a tie). Sources without it are split record by record, and the comment above split names them.
+ */
+function splitGroup(sources: SourceProposal[]): StageProposal["group"] {
+  const by = new Map<string, SourceProposal[]>();
+  for (const s of sources) if (s.fields.group) by.set(s.fields.group.field, [...(by.get(s.fields.group.field) ?? []), s]);
+  const best = [...by.entries()].reduce<[string, SourceProposal[]] | undefined>((a, e) => (a === undefined || e[1].length > a[1].length ? e : a), undefined);
+  if (!best) return undefined;
+  const [field, list] = best;
+  const g = list[0].fields.group!;
+  return {
+    field,
+    noun: g.noun,
+    values: Math.max(...list.map((s) => s.fields.group!.values)),
+    perValue: g.perValue,
+    sources: list.map((s) => s.group.name),
+    others: sources.filter((s) => !list.includes(s)).map((s) => s.group.name),
+  };
+}
+
 export async function propose(paths: string[], o: ProposeOptions): Promise<Proposal> {
   const files: { path: string; sniffed: Sniffed }[] = [];
   for (const path of paths) {
@@ -73,6 +94,7 @@ export async function propose(paths: string[], o: ProposeOptions): Promise<Propo
     holdout,
     records,
     groupFields: metaFields.map((k) => [k, Math.max(...sources.map((s) => s.fields.metaValues[k] ?? 0))]),
+    group: splitGroup(sources),
   };
   const stemName = basename(o.out, extname(o.out)) || "pipeline";
   const outputDir = `build/${stemName.replace(/[^A-Za-z0-9_.-]+/g, "-")}`;

@@ -67,14 +67,17 @@ async function notABuild(dir: string): Promise<string | undefined> {
   return foreign ? `it holds ${foreign}, which its manifest does not list; move that file away or choose another output directory` : undefined;
 }
 
-/** Refuses a target that exists but is not a directory, or not provably a siftpack build. */
-async function checkReplaceable(outDir: string): Promise<void> {
+/** Refuses a target that exists but is not a directory, or not provably a siftpack build (`plan` checks it too). */
+export async function checkReplaceable(outDir: string): Promise<void> {
   const st = await stat(outDir).catch((e) => (e.code === "ENOENT" ? undefined : Promise.reject(e)));
   if (!st) return;
   if (!st.isDirectory()) throw new SiftpackError("SP_OUTPUT", `output directory ${outDir} exists and is not a directory`);
   const why = await notABuild(outDir);
   if (why) throw new SiftpackError("SP_OUTPUT", `refusing to replace ${outDir}: ${why}`);
 }
+
+/** Staging directories this process created (the only ones discardStaging may remove), and whether each holds a finished build. */
+const created = new Map<string, "building" | "finished">();
 
 /** Creates an empty staging directory; refuses a target that exists but is not a siftpack output. */
 export async function prepareStaging(outDir: string): Promise<string> {
@@ -83,6 +86,7 @@ export async function prepareStaging(outDir: string): Promise<string> {
     await checkReplaceable(outDir);
     await rm(staging, { recursive: true, force: true });
     await mkdir(staging, { recursive: true });
+    created.set(staging, "building");
     return staging;
   } catch (err) {
     if (err instanceof SiftpackError) throw err;
@@ -98,6 +102,7 @@ export async function prepareStaging(outDir: string): Promise<string> {
 export async function publishStaging(staging: string, outDir: string): Promise<void> {
   const old = join(dirname(outDir), `.${basename(outDir)}.old`);
   let moved = false;
+  if (created.has(staging)) created.set(staging, "finished");
   try {
     await checkReplaceable(outDir);
     await rm(old, { recursive: true, force: true });
@@ -107,6 +112,7 @@ export async function publishStaging(staging: string, outDir: string): Promise<v
       moved = true;
     }
     await rename(staging, outDir);
+    created.delete(staging);
   } catch (err) {
     if (moved) await rename(old, outDir).catch(() => {});
     if (err instanceof SiftpackError) throw err;
@@ -114,4 +120,23 @@ export async function publishStaging(staging: string, outDir: string): Promise<v
   }
   // The new build is in place; a previous one that cannot be removed now is removed by the next publish.
   await rm(old, { recursive: true, force: true }).catch(() => {});
+}
+
+/**
+ * After a failed run: removes the staging directory this process created, which holds at most part
+ * of a build (nothing anyone can use; the next run would remove it anyway). A finished build that
+ * could not be moved into place is kept, and a staging directory another process made is never
+ * touched (a second run into the same output fails on the lock before it makes one). Says what was
+ * left behind: nothing, the finished build, or a folder that could not be removed.
+ */
+export async function discardStaging(outDir: string): Promise<{ kept: "finished" | "unremovable"; path: string } | undefined> {
+  const staging = stagingDirOf(outDir);
+  const state = created.get(staging);
+  if (state === undefined) return undefined;
+  if (state === "finished") return { kept: "finished", path: staging };
+  created.delete(staging);
+  return rm(staging, { recursive: true, force: true }).then(
+    () => undefined,
+    () => ({ kept: "unremovable" as const, path: staging }),
+  );
 }

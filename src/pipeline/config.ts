@@ -101,31 +101,47 @@ export const pipelineSchema = obj({
 export type PipelineConfig = Infer<typeof pipelineSchema>;
 export type SourceConfig = PipelineConfig["sources"][number];
 
-/** Rules that span several keys: stage order, unique source names, split field carried as meta. */
+/**
+ * Rules that span several keys: stage order, unique source names, split field carried as meta. They
+ * run even when the schema found problems (so one report lists everything), on whatever of the
+ * configuration could be resolved: a value the schema refused is skipped here, not reported twice.
+ */
 export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
+  // Entries the schema could not read as mappings are skipped, keeping every other entry's index.
+  const sources = (Array.isArray(c.sources) ? c.sources : []).map((s) => (s !== null && typeof s === "object" ? s : undefined));
+  const stages = Array.isArray(c.stages) ? c.stages : [];
   const names = new Set<string>();
-  c.sources.forEach((s, i) => {
-    if (names.has(s.name)) issues.push({ path: ["sources", i, "name"], message: `source name "${s.name}" is used twice` });
-    names.add(s.name);
-    if (s.max_line_mb !== undefined && !LINE_LIMITED.includes(s.format))
+  sources.forEach((s, i) => {
+    if (s === undefined) return;
+    if (typeof s.name === "string" && s.name !== "") {
+      if (names.has(s.name)) issues.push({ path: ["sources", i, "name"], message: `source name "${s.name}" is used twice` });
+      names.add(s.name);
+    }
+    if (s.max_line_mb !== undefined && typeof s.format === "string" && (FORMATS as readonly string[]).includes(s.format) && !LINE_LIMITED.includes(s.format))
       issues.push({ path: ["sources", i, "max_line_mb"], atKey: true, message: `max_line_mb applies to formats ${LINE_LIMITED.join(", ")} only (format is ${s.format})` });
   });
-  const at = (n: string) => c.stages.findIndex((s) => s.name === n);
+  if (!Array.isArray(c.stages)) return;
+  const at = (n: string) => stages.findIndex((s) => s.name === n);
   const tok = at("tokenize");
   const pack = at("pack");
   const stagesPath: Path = ["stages"];
-  if (tok < 0) issues.push({ path: stagesPath, message: `the stages need a "tokenize" stage` });
-  if (pack < 0) issues.push({ path: stagesPath, message: `the stages need a "pack" stage, last` });
-  else if (pack !== c.stages.length - 1) issues.push({ path: ["stages", pack, "pack"], atKey: true, message: `"pack" must be the last stage` });
+  // An unknown stage name (already reported, with a close match) may be the missing tokenize or pack.
+  const unknown = stages.some((s) => !(s.name in STAGES));
+  if (tok < 0 && !unknown) issues.push({ path: stagesPath, message: `the stages need a "tokenize" stage` });
+  if (pack < 0) {
+    if (!unknown) issues.push({ path: stagesPath, message: `the stages need a "pack" stage, last` });
+  } else if (pack !== stages.length - 1) issues.push({ path: ["stages", pack, "pack"], atKey: true, message: `"pack" must be the last stage` });
   if (tok >= 0 && pack >= 0 && tok > pack) issues.push({ path: ["stages", tok, "tokenize"], atKey: true, message: `"tokenize" must come before "pack"` });
   for (const n of ["tokenize", "pack", "split"]) {
-    if (c.stages.filter((s) => s.name === n).length > 1) issues.push({ path: stagesPath, message: `"${n}" may appear only once` });
+    if (stages.filter((s) => s.name === n).length > 1) issues.push({ path: stagesPath, message: `"${n}" may appear only once` });
   }
   const splitAt = at("split");
   if (splitAt >= 0) {
-    const by: string | undefined = c.stages[splitAt].options.by;
-    if (by !== undefined && !c.sources.some((s) => s.meta.includes(by))) {
-      const near = closest(by, c.sources.flatMap((s) => s.meta));
+    const by: unknown = stages[splitAt].options?.by;
+    const metas = sources.flatMap((s) => (Array.isArray(s?.meta) ? s.meta.filter((m) => typeof m === "string") : []));
+    // An empty or non-string `by` is the schema's to report.
+    if (typeof by === "string" && by !== "" && !metas.includes(by)) {
+      const near = closest(by, metas);
       issues.push({
         path: ["stages", splitAt, "split", "by"],
         message: `split.by is "${by}" but no source lists it in meta${near ? ` (did you mean "${near}"?)` : ""}; records without it are split by id`,

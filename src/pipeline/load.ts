@@ -53,8 +53,17 @@ export function positionOf(doc: Document, lc: LineCounter, issue: Issue): string
   return `${line}:${col}`;
 }
 
-/** Parses and validates pipeline text; throws SiftpackError listing every problem. */
-export function parsePipeline(text: string, file: string): PipelineConfig {
+/** Pipeline text checked against the schema and the rules across keys, every problem kept. */
+export interface CheckedText {
+  /** The resolved configuration; where there are issues, only partly resolved (a refused value may be missing or empty). */
+  config: PipelineConfig;
+  issues: Issue[];
+  /** "p.yaml:3:5: sources[0].files: …": an issue (or a problem found later at a key's path) as a user reads it. */
+  describe(issue: Issue): string;
+}
+
+/** Parses pipeline text and checks it; throws SiftpackError (SP_PIPELINE_FILE) only when it is not YAML or JSON at all. */
+export function checkPipelineText(text: string, file: string): CheckedText {
   const lc = new LineCounter();
   const doc = parseDocument(text, { lineCounter: lc, prettyErrors: false, uniqueKeys: true });
   if (doc.errors.length > 0) {
@@ -67,13 +76,20 @@ export function parsePipeline(text: string, file: string): PipelineConfig {
   const value = toValue(doc, lc, file);
   const issues: Issue[] = [];
   const config = pipelineSchema.check(value, [], issues);
-  if (issues.length === 0) checkPipelineRules(config, issues);
-  if (issues.length > 0) {
-    const lines = issues.map((i) => `${file}:${positionOf(doc, lc, i)}: ${formatPath(i.path)}: ${i.message}`);
-    throw new SiftpackError("SP_PIPELINE_KEY", `${file}: ${issues.length} problem${issues.length > 1 ? "s" : ""} in the pipeline file`, {
-      details: lines,
-    });
-  }
+  // The rules across keys run on what could be resolved, so one report holds every problem.
+  checkPipelineRules(config, issues);
+  return { config, issues, describe: (i) => `${file}:${positionOf(doc, lc, i)}: ${formatPath(i.path)}: ${i.message}` };
+}
+
+/** "p.yaml: 3 problems in the pipeline file". */
+export function problemsMessage(file: string, n: number): string {
+  return `${file}: ${n} problem${n > 1 ? "s" : ""} in the pipeline file`;
+}
+
+/** Parses and validates pipeline text; throws SiftpackError listing every problem. */
+export function parsePipeline(text: string, file: string): PipelineConfig {
+  const { config, issues, describe } = checkPipelineText(text, file);
+  if (issues.length > 0) throw new SiftpackError("SP_PIPELINE_KEY", problemsMessage(file, issues.length), { details: issues.map(describe) });
   return config;
 }
 
@@ -103,16 +119,28 @@ function toValue(doc: Document, lc: LineCounter, file: string): unknown {
   }
 }
 
-export async function loadPipeline(file: string, overrides: { outDir?: string } = {}): Promise<LoadedPipeline> {
-  let text: string;
+/** The pipeline file's text; SP_PIPELINE_FILE when it cannot be read. */
+export async function readPipelineText(file: string): Promise<string> {
   try {
-    text = await readFile(file, "utf8");
+    return await readFile(file, "utf8");
   } catch (err) {
     throw new SiftpackError("SP_PIPELINE_FILE", `${file}: cannot read the pipeline file: ${describeSystemError(err)}`, { cause: err });
   }
-  const config = parsePipeline(text, file);
+}
+
+/** The absolute output directory: --out, else output.dir relative to the pipeline file. */
+export function outDirOf(file: string, dir: string, overrides: { outDir?: string } = {}): string {
+  return overrides.outDir ? resolve(overrides.outDir) : isAbsolute(dir) ? dir : resolve(dirname(resolve(file)), dir);
+}
+
+export async function loadPipeline(file: string, overrides: { outDir?: string } = {}): Promise<LoadedPipeline> {
+  return loadedPipeline(file, parsePipeline(await readPipelineText(file), file), overrides);
+}
+
+/** A valid configuration with its paths resolved and its hash. */
+export async function loadedPipeline(file: string, config: PipelineConfig, overrides: { outDir?: string } = {}): Promise<LoadedPipeline> {
   const baseDir = dirname(resolve(file));
-  const outDir = overrides.outDir ? resolve(overrides.outDir) : isAbsolute(config.output.dir) ? config.output.dir : resolve(baseDir, config.output.dir);
+  const outDir = outDirOf(file, config.output.dir, overrides);
   await loadHasher();
   // The output directory is not part of the hash: the same data built elsewhere is the same build;
   // nor is how the work is cut into tasks (`cluster`), which never changes a byte of the result.

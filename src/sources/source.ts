@@ -20,7 +20,7 @@ export interface SourceSpec {
   format: Format;
   /** The field holding the document text (ignored for format text: the file is the text). */
   text: string;
-  /** The field holding the record id; default ids are "<name>:<record number>". */
+  /** The field holding the record id; default ids are defaultId(): "<name>:<file>:<line>" ("<name>:<file>" for text). */
   id?: string;
   /** Fields copied into `meta` (a missing one becomes null). */
   meta: string[];
@@ -131,7 +131,42 @@ function hasField(fields: Record<string, unknown>, name: string): boolean {
   return Object.hasOwn(fields, name) && fields[name] !== undefined;
 }
 
-/** Maps rows to records for one source; holds the record counter and the explicit ids seen. */
+/**
+ * A record's id when its source names no id field: the source, the file and the record's line or
+ * row in that file ("manuals:tram-doors.jsonl:12"); a text file is one record, named by its file
+ * alone ("pages:brakes/pads.txt"). `idFile` is the file's path below the folder its source's pattern
+ * starts from (idFileOf). It depends on the record's own file and place only, so adding, removing or
+ * renaming other files never changes it (and so never moves a record to another split); the file and
+ * line cannot repeat within a source.
+ */
+export function defaultId(spec: Pick<SourceSpec, "name" | "format">, idFile: string, line: number): string {
+  return spec.format === "text" ? `${spec.name}:${idFile}` : `${spec.name}:${idFile}:${line}`;
+}
+
+/** The folder a `files` pattern starts from: its leading path segments without glob syntax (a plain path: its folder). */
+function patternBase(pattern: string): string {
+  const segments = pattern.split("/");
+  if (!isDynamicPattern(pattern)) return segments.slice(0, -1).join("/");
+  const fixed: string[] = [];
+  for (const seg of segments.slice(0, -1)) {
+    if (isDynamicPattern(seg)) break;
+    fixed.push(seg.replace(/\\(.)/g, "$1"));
+  }
+  return fixed.join("/");
+}
+
+/**
+ * The path of a source's file (relative to `baseDir`, as listFiles gives it) below the folder its
+ * pattern starts from: "2026/03.jsonl" for "../data/tickets/{2025,2026}/*.jsonl", "notes.csv" for
+ * "../data/notes.csv". Default ids use it rather than the path from the pipeline
+ * file, so moving the pipeline file or writing the pattern as an absolute path keeps every id.
+ */
+export function idFileOf(spec: Pick<SourceSpec, "files">, baseDir: string, file: string): string {
+  const base = path.resolve(baseDir, patternBase(spec.files));
+  return toPosix(path.relative(base, path.resolve(baseDir, file)));
+}
+
+/** Maps rows to records for one source; holds the row counter and the explicit ids seen. */
 export class RecordMapper {
   private count = 0;
   private readonly ids = new Set<string>();
@@ -140,7 +175,7 @@ export class RecordMapper {
 
   constructor(private readonly spec: SourceSpec) {}
 
-  /** Rows mapped so far (bad ones included): the next default id is `<source>:<rows + 1>`. */
+  /** Rows mapped so far (bad ones included); the last one's row in its unit is `rows - 1`. */
   get rows(): number {
     return this.count;
   }
@@ -163,11 +198,14 @@ export class RecordMapper {
     this.idDigest = (this.idDigest + h) & 0xffffffffffffffffn;
   }
 
-  /** A row as a record or a quarantine entry; a truncated row is not a row (readSourceFile sets it apart) and is refused. */
-  map(row: Row, file: string): SourceItem | SourceBad {
+  /**
+   * A row as a record or a quarantine entry; a truncated row is not a row (readSourceFile sets it
+   * apart) and is refused. `idFile` names the file in default ids (idFileOf; the file itself when not given).
+   */
+  map(row: Row, file: string, idFile = file): SourceItem | SourceBad {
     if (isTruncated(row)) throw new TypeError("RecordMapper.map: a truncated row is not a row");
-    // Every row counts, bad ones too, so a default id does not move when an earlier row breaks or heals.
-    const n = ++this.count;
+    // Every row counts, bad ones too, so a row number does not move when an earlier row breaks or heals.
+    this.count++;
     const bad = (error: string): SourceBad => ({ kind: "bad", entry: { source: this.spec.name, file, line: row.line, error } });
     if (isBad(row)) return bad(row.error);
     const { spec } = this;
@@ -178,7 +216,8 @@ export class RecordMapper {
     const text = fields[textField];
     if (typeof text !== "string") return bad(`field "${textField}" is not a string (got ${kindOf(text)})`);
 
-    let id = `${spec.name}:${n}`;
+    // A part of a file numbers its lines from 1; the engine names its records again once the part's place is known (fixFromRead).
+    let id = defaultId(spec, idFile, row.line);
     if (spec.id !== undefined) {
       const value = hasField(fields, spec.id) ? fields[spec.id] : null;
       if (value === null) return bad(`id field "${spec.id}" is missing`);
@@ -209,17 +248,18 @@ export async function* readSource(spec: SourceSpec, baseDir: string): AsyncGener
   for (const file of files) yield* readSourceFile(spec, baseDir, file, mapper);
 }
 
-/** The rows of one file of a source; `mapper` carries the record count and ids across files. */
+/** The rows of one file of a source; `mapper` carries the row count and the explicit ids across files. */
 export async function* readSourceFile(spec: SourceSpec, baseDir: string, file: string, mapper: RecordMapper, range?: { start: number; end: number }): AsyncGenerator<SourceEvent> {
   const read = readerFor(spec.format);
+  const idFile = idFileOf(spec, baseDir, file);
   let rows = 0;
   try {
     for await (const row of read(path.resolve(baseDir, file), { range, maxRecordBytes: lineLimitBytes(spec.max_line_mb) })) {
-      // Not a row: the record count (and so the default ids) does not move.
+      // Not a row: the row count (and so `seq`) does not move.
       if (isTruncated(row)) yield { kind: "truncated", source: spec.name, file, rows_read: rows, truncated: row.truncated };
       else {
         rows++;
-        yield mapper.map(row, file);
+        yield mapper.map(row, file, idFile);
       }
     }
   } catch (err) {

@@ -264,15 +264,30 @@ const ROWS: Row[] = [
     },
     args: (c) => ["plan", c.pipeline!],
     code: 2,
-    message: /p\.yaml: 5 problems in the pipeline file$/,
-    // Each with file:line:col, the key and a close match (the lists of allowed keys are not pinned).
+    message: /p\.yaml: 6 problems: 5 in the pipeline file, 1 with the files it names$/,
+    // Each with file:line:col, the key and a close match (the lists of allowed keys are not pinned);
+    // then the files the pipeline names (a.jsonl was never written), checked in the same go.
     details: [
       /^.*p\.yaml:3:38: sources\[0\]\.fromat: unknown key "fromat" \(did you mean "format"\?\); allowed: name, files, format, /,
       /^.*p\.yaml:3:5: sources\[0\]\.format: missing required key "format" \(one of jsonl \| json \| csv \| tsv \| text \| parquet\)$/,
       /^.*p\.yaml:5:5: stages\[0\]\.tokenise: unknown stage "tokenise" \(did you mean "tokenize"\?\); stages: /,
       /^.*p\.yaml:6:31: stages\[1\]\.dedup\.treshold: unknown key "treshold" \(did you mean "threshold"\?\); allowed: /,
       /^.*p\.yaml:8:21: output\.shards: unknown key "shards" \(did you mean "shard_blocks"\?\); allowed: dir, shard_blocks$/,
+      /^.*p\.yaml:3:29: sources\[0\]\.files: source "tickets": no file matches "a\.jsonl"$/,
     ],
+    finished: false,
+  },
+  {
+    name: "a run whose pipeline names a missing protected file and a missing input: every problem before anything is written",
+    setup: () => {
+      const p = project({ "data/a.jsonl": lines(...GOOD) });
+      writeFileSync(p.pipeline, readFileSync(p.pipeline, "utf8").replace("stages:\n", "  - { name: extra, files: more/*.jsonl, format: jsonl }\nstages:\n  - split: {}\n  - decontaminate: { against: [eval/gone.txt] }\n"));
+      return { ...p, check: () => expect(existsSync(join(p.dir, ".out.partial")) || existsSync(join(p.dir, ".out.cache"))).toBe(false) };
+    },
+    args: run,
+    code: 1,
+    message: /p\.yaml: 2 problems with the files it names$/,
+    details: [/^.*p\.yaml:5:\d+: sources\[1\]\.files: source "extra": no file matches "more\/\*\.jsonl"$/, /^.*p\.yaml:8:\d+: stages\[1\]\.decontaminate\.against\[0\]: decontaminate: no file matches "eval\/gone\.txt" \(relative to .*\)$/],
     finished: false,
   },
   {
@@ -464,7 +479,10 @@ const ROWS: Row[] = [
     name: "a cluster build whose output is the pipeline file's folder: its last task refuses",
     setup: () => {
       const p = project({ "data/a.jsonl": lines(...GOOD) }, { top: "cluster: { tasks: 1, work_dir: work }\n", outDir: "." });
-      tasksBeforeAssemble(p.pipeline);
+      // `plan` refuses this output itself, so the phases are listed from a copy naming another output (they do not depend on it).
+      const listed = join(p.dir, "listed.yaml");
+      writeFileSync(listed, readFileSync(p.pipeline, "utf8").replace("dir: . }", "dir: out }"));
+      tasksBeforeAssemble(p.pipeline, listed);
       return { ...p, untouched: join(p.dir, "data") };
     },
     args: (c) => ["task", c.pipeline!, "--phase", "assemble", "--index", "0", "--quiet"],
@@ -578,8 +596,8 @@ const ROWS: Row[] = [
 ];
 
 /** Runs every task of a cluster pipeline (one per phase) but the last, assemble, as a scheduler would. */
-function tasksBeforeAssemble(pipeline: string): void {
-  const phases: string[] = JSON.parse(siftpack(["plan", "--tasks", "--json", pipeline]).stdout).phases.map((ph: { name: string }) => ph.name);
+function tasksBeforeAssemble(pipeline: string, listedFrom = pipeline): void {
+  const phases: string[] = JSON.parse(siftpack(["plan", "--tasks", "--json", listedFrom]).stdout).phases.map((ph: { name: string }) => ph.name);
   expect(phases.at(-1)).toBe("assemble");
   for (const phase of phases.slice(0, -1)) {
     const r = siftpack(["task", pipeline, "--phase", phase, "--index", "0", "--quiet"]);

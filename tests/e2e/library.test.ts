@@ -127,7 +127,7 @@ describe("library use", () => {
       const records: { id: string; car?: number }[] = [];
       cars.forEach((list, f) => {
         const lines = list.map((car, k) => {
-          records.push({ id: `t:${records.length + 1}`, car });
+          records.push({ id: `t:notes-${f}.jsonl:${k + 1}`, car });
           return JSON.stringify({ text: `Shift note ${k + 1} of sheet ${f + 1}: sander on car ${car ?? "unknown"} refilled at Kestrel Street.`, ...(car === undefined ? {} : { car }) });
         });
         writeFileSync(join(dir, `d/notes-${f}.jsonl`), lines.join("\n") + "\n");

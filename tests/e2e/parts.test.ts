@@ -64,6 +64,9 @@ interface LedgerLine {
   detail?: Record<string, unknown>;
 }
 
+/** A default id: source, file and the line in the whole file, whichever part read it. */
+const idOf = (line: number) => `t:notes.jsonl:${line}`;
+
 let dir: string;
 let offsets: number[]; // byte offset of each line's start, by 1-based line
 
@@ -122,7 +125,7 @@ function expectLedgerOfNotes(lines: LedgerLine[]): void {
     expect(l.line, `ledger line ${n}`).toBe(n);
     expect(l.file).toBe("../data/notes.jsonl");
     if (n === BAD_LINE) expect(l.fate).toBe("quarantined");
-    else expect(l.id, `ledger line ${n}`).toBe(`t:${n}`);
+    else expect(l.id, `ledger line ${n}`).toBe(idOf(n));
   });
 }
 
@@ -148,7 +151,7 @@ describe("a JSONL file read in parts gives the build of reading it whole", () =>
     expect(readFileSync(join(parts.out, "tokenizer.json"), "utf8")).toBe(readFileSync(join(whole.out, "tokenizer.json"), "utf8"));
     expectLedgerOfNotes(parts.ledger.lines);
     // The exact copy, in a later part than its original, is dropped naming it.
-    for (const [later, earlier] of COPIES) expect(parts.ledger.lines[later - 1]).toMatchObject({ fate: "dropped", reason: "duplicate", detail: { of: `t:${earlier}` } });
+    for (const [later, earlier] of COPIES) expect(parts.ledger.lines[later - 1]).toMatchObject({ fate: "dropped", reason: "duplicate", detail: { of: idOf(earlier) } });
     expect(parts.json.records).toMatchObject({ read: LINES, dropped: COPIES.length, quarantined: 1 });
   });
 
@@ -158,7 +161,7 @@ describe("a JSONL file read in parts gives the build of reading it whole", () =>
     expect(parts.ledger.raw).toBe(whole.ledger.raw);
     expect(readFileSync(join(parts.out, "clusters.jsonl"), "utf8")).toBe(readFileSync(join(whole.out, "clusters.jsonl"), "utf8"));
     expectLedgerOfNotes(parts.ledger.lines);
-    for (const [later, earlier] of [...COPIES, ...NEAR]) expect(parts.ledger.lines[later - 1], `line ${later}`).toMatchObject({ fate: "dropped", reason: "near-duplicate", detail: { of: `t:${earlier}` } });
+    for (const [later, earlier] of [...COPIES, ...NEAR]) expect(parts.ledger.lines[later - 1], `line ${later}`).toMatchObject({ fate: "dropped", reason: "near-duplicate", detail: { of: idOf(earlier) } });
   });
 
   it("a library stage of form `whole` sees every record in input order, with file-wide rows and lines", async () => {
@@ -195,7 +198,7 @@ describe("a JSONL file read in parts gives the build of reading it whole", () =>
       expect(parts.seen).toEqual(whole.seen);
       // What the stage saw: every line but the bad one and the exact copy, in order, row = line − 1.
       const expected: Seen[] = [];
-      for (let n = 1; n <= LINES; n++) if (n !== BAD_LINE && !COPIES.some(([at]) => at === n)) expected.push([`t:${n}`, n - 1, "../data/notes.jsonl", n]);
+      for (let n = 1; n <= LINES; n++) if (n !== BAD_LINE && !COPIES.some(([at]) => at === n)) expected.push([idOf(n), n - 1, "../data/notes.jsonl", n]);
       expect(parts.seen).toEqual(expected);
       expect(parts.manifest.build_hash).toBe(whole.manifest.build_hash);
       expect(parts.ledger.raw).toBe(whole.ledger.raw);

@@ -81,6 +81,8 @@ describe("a full disk", () => {
     expect(second.stderr).toMatch(/^siftpack: error: .*no space left on device; free some space there, or build elsewhere with --out\n$/);
     expect(outputFiles(out)).toEqual(before);
     expect(siftpack(["verify", out]).code).toBe(0);
-    expect(existsSync(join(mnt, ".demo.partial"))).toBe(true);
+    // The failed build's half-written staging folder is removed (freeing the space); the cache stays.
+    expect(existsSync(join(mnt, ".demo.partial"))).toBe(false);
+    expect(existsSync(join(mnt, ".demo.cache"))).toBe(true);
   });
 });

@@ -92,11 +92,12 @@ describe("readSource", () => {
       .join("\n") + "\n",
   );
 
-  it("maps rows to records and bad rows to quarantine entries, numbering every row", async () => {
+  it("maps rows to records and bad rows to quarantine entries, naming records by file and line", async () => {
     const items = await collect(readSource(spec({ files: "tickets/*.jsonl", meta: ["depot", "priority"] }), base));
-    const rec = (n: number, file: string, line: number, text: string, meta: object) => ({
+    // A default id is the source, the file (below the pattern's folder) and the line: nothing about other files or rows.
+    const rec = (file: string, line: number, text: string, meta: object) => ({
       kind: "record",
-      id: `tickets:${n}`,
+      id: `tickets:${file.slice("tickets/".length)}:${line}`,
       source: "tickets",
       text,
       meta,
@@ -104,16 +105,16 @@ describe("readSource", () => {
     });
     const bad = (file: string, line: number, error: string) => ({ kind: "bad", entry: { source: "tickets", file, line, error } });
     expect(items).toEqual([
-      rec(1, "tickets/1.jsonl", 1, "Door fault on car 12.", { depot: "Quillon Street", priority: 2 }),
+      rec("tickets/1.jsonl", 1, "Door fault on car 12.", { depot: "Quillon Street", priority: 2 }),
       bad("tickets/1.jsonl", 2, "malformed JSON: expected property name or '}' in JSON at position 1"),
       bad("tickets/1.jsonl", 3, 'field "body" is missing'),
       bad("tickets/1.jsonl", 4, 'field "body" is not a string (got number)'),
-      rec(5, "tickets/1.jsonl", 5, "Numeric ids become strings.", { depot: null, priority: null }),
-      rec(6, "tickets/2.jsonl", 1, "A second T-1 is a duplicate.", { depot: null, priority: null }),
-      rec(7, "tickets/2.jsonl", 2, "No id at all.", { depot: null, priority: null }),
-      rec(8, "tickets/2.jsonl", 3, "An array id.", { depot: null, priority: null }),
-      rec(9, "tickets/2.jsonl", 4, "An empty id.", { depot: null, priority: null }),
-      rec(10, "tickets/2.jsonl", 5, "Last good one.", { depot: null, priority: null }),
+      rec("tickets/1.jsonl", 5, "Numeric ids become strings.", { depot: null, priority: null }),
+      rec("tickets/2.jsonl", 1, "A second T-1 is a duplicate.", { depot: null, priority: null }),
+      rec("tickets/2.jsonl", 2, "No id at all.", { depot: null, priority: null }),
+      rec("tickets/2.jsonl", 3, "An array id.", { depot: null, priority: null }),
+      rec("tickets/2.jsonl", 4, "An empty id.", { depot: null, priority: null }),
+      rec("tickets/2.jsonl", 5, "Last good one.", { depot: null, priority: null }),
     ]);
   });
 
@@ -145,13 +146,13 @@ describe("readSource", () => {
     expect(items).toEqual([
       {
         kind: "record",
-        id: "depots:1",
+        id: "depots:depots.csv:1",
         source: "depots",
         text: "Gate code changed, ask the office",
         meta: { depot: "Quillon Street" },
         origin: { file: "depots.csv", line: 1 },
       },
-      { kind: "record", id: "depots:2", source: "depots", text: "Quiet week", meta: { depot: "Harbour Loop" }, origin: { file: "depots.csv", line: 2 } },
+      { kind: "record", id: "depots:depots.csv:2", source: "depots", text: "Quiet week", meta: { depot: "Harbour Loop" }, origin: { file: "depots.csv", line: 2 } },
     ]);
   });
 
@@ -160,7 +161,7 @@ describe("readSource", () => {
     tmp.put("read/memos/b.txt", "");
     const items = await collect(readSource(spec({ name: "memos", files: "memos/*.txt", format: "text", text: "ignored", meta: ["path"] }), base));
     expect(items).toEqual([
-      { kind: "record", id: "memos:1", source: "memos", text: "Sweep platform 3 before 7.", meta: { path: "memos/a.txt" }, origin: { file: "memos/a.txt", line: 1 } },
+      { kind: "record", id: "memos:a.txt", source: "memos", text: "Sweep platform 3 before 7.", meta: { path: "memos/a.txt" }, origin: { file: "memos/a.txt", line: 1 } },
       { kind: "bad", entry: { source: "memos", file: "memos/b.txt", line: 0, error: "empty file" } },
     ]);
   });
@@ -179,7 +180,7 @@ describe("readSource", () => {
     const size = gz.length - 200;
     expect(cut[0]).toEqual({ kind: "truncated", source: "logs", file: "logs/a.jsonl.gz", rows_read: at, truncated: { error: "corrupt gzip data: unexpected end of file", bytes_read: size, size } });
     expect(at).toBeGreaterThan(100);
-    // The loss is not a row: the next file's first record takes the next default id.
-    expect(items[items.length - 1]).toMatchObject({ kind: "record", id: `logs:${at + 1}`, text: "after the damage", origin: { file: "logs/b.jsonl", line: 1 } });
+    // The loss is not a row, and the next file's records are named by their own file and line.
+    expect(items[items.length - 1]).toMatchObject({ kind: "record", id: "logs:b.jsonl:1", text: "after the damage", origin: { file: "logs/b.jsonl", line: 1 } });
   });
 });

@@ -98,7 +98,7 @@ describe("truncated rows", () => {
     expect(items.filter((i) => i.kind === "truncated")).toHaveLength(1);
   });
 
-  it("are not rows: the mapper refuses them and the default ids do not move", async () => {
+  it("are not rows: the mapper refuses them and the row count does not move", async () => {
     const mapper = new RecordMapper(spec({}));
     expect(() => mapper.map(truncatedRow(1, { error: "read error: input/output error" }), "a.jsonl")).toThrow(/not a row/);
     expect(mapper.rows).toBe(0);
@@ -108,7 +108,9 @@ describe("truncated rows", () => {
     const items = await collect(readSource(spec({ files: "ids/*" }), tmp.dir));
     const cut = items.findIndex((i) => i.kind === "truncated");
     expect(items[cut]).toMatchObject({ rows_read: cut, file: "ids/a.jsonl.gz" });
-    expect(items.at(-1)).toMatchObject({ kind: "record", id: `tickets:${cut + 1}` });
+    expect(items.at(-1)).toMatchObject({ kind: "record", id: "tickets:b.jsonl:1" });
+    // The records before the loss are named by their own lines.
+    expect(items[cut - 1]).toMatchObject({ kind: "record", id: `tickets:a.jsonl.gz:${cut}` });
   });
 });
 
