@@ -4,9 +4,10 @@ import { join } from "node:path";
 import type { CommandModule } from "yargs";
 import { readManifest, type Manifest } from "../output/manifest.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { loadEncoding } from "../tokenizer/index.js";
 import { readNpyRow } from "../pack/npy-row.js";
-import { describeRow, rowTable, rowText } from "../pack/row-report.js";
+import { describeRow, originText, rowTable, rowText } from "../pack/row-report.js";
+import { readOrigins, type OriginLine } from "../pack/origins.js";
+import { buildEncoder } from "../pack/build-tokenizer.js";
 import { maskSvg } from "../pack/mask-svg.js";
 import { maskPng } from "../pack/mask-png.js";
 
@@ -17,6 +18,7 @@ interface Args {
   ids?: boolean;
   mask?: string;
   json?: boolean;
+  tokenizer?: string;
 }
 
 /** The shard holding block `block` of a split (blocks count from 0 across the split's shards in manifest order). */
@@ -46,6 +48,14 @@ async function readRow(dir: string, rel: string, row: number, length: number): P
   return values;
 }
 
+/** The origins index lines of the row; undefined for a build made before the index existed. */
+async function rowOrigins(dir: string, rel: string | undefined, row: number): Promise<OriginLine[] | undefined> {
+  if (rel === undefined) return undefined;
+  return readOrigins(join(dir, rel), row).catch((err) => {
+    throw new SiftpackError("SP_MANIFEST", `${join(dir, rel)}: ${err.code ? describeSystemError(err) : err.message}`, { cause: err });
+  });
+}
+
 export const inspectCommand: CommandModule<object, Args> = {
   command: "inspect <dir>",
   describe: "print one block decoded, with document boundaries (and its attention mask as SVG or PNG)",
@@ -56,7 +66,8 @@ export const inspectCommand: CommandModule<object, Args> = {
       .option("block", { type: "number", demandOption: true, describe: "block index within the split, from 0" })
       .option("ids", { type: "boolean", describe: "one line per token: segment, position, target, id, text" })
       .option("mask", { type: "string", describe: "write the block's attention mask picture to this file: .svg (labelled) or .png (pixels only)" })
-      .option("json", { type: "boolean" }),
+      .option("json", { type: "boolean" })
+      .option("tokenizer", { type: "string", describe: "the tokenizer file the build used, when its pipeline's file has moved" }),
   handler: async (args) => {
     const kind = args.mask === undefined ? undefined : /\.(svg|png)$/i.exec(args.mask)?.[1].toLowerCase();
     if (args.mask !== undefined && kind === undefined) throw new SiftpackError("SP_USAGE", `--mask: name the picture file .svg or .png (got ${JSON.stringify(args.mask)})`);
@@ -64,7 +75,8 @@ export const inspectCommand: CommandModule<object, Args> = {
     const { shard, row, blocks } = locate(m, args.dir, args.split, args.block);
     const tokens = await readRow(args.dir, shard.tokens, row, m.length);
     const segments = await readRow(args.dir, shard.segments, row, m.length);
-    const enc = loadEncoding(m.tokenizer.name);
+    const origins = await rowOrigins(args.dir, shard.origins, row);
+    const enc = await buildEncoder(args.dir, m, args.tokenizer);
     const input = { tokens, segments, decode: (ids: ArrayLike<number>) => enc.decode(ids), eosId: m.tokenizer.eos_id, eosAppended: m.tokenizer.eos };
     const report = describeRow(input);
     const where = `${shard.tokens.replace(/\.tokens\.npy$/, "")} row ${row}`;
@@ -77,14 +89,17 @@ export const inspectCommand: CommandModule<object, Args> = {
       });
     }
     if (args.json) {
-      const out = { split: args.split, block: args.block, blocks, shard: shard.tokens, row, ...report, tokens: [...tokens], segments: [...segments], ...(args.mask ? { mask: args.mask } : {}) };
+      const out = { split: args.split, block: args.block, blocks, shard: shard.tokens, row, ...report, ...(origins ? { origins } : {}), tokens: [...tokens], segments: [...segments], ...(args.mask ? { mask: args.mask } : {}) };
       process.stdout.write(JSON.stringify(out, null, 2) + "\n");
       return;
     }
     const pieces = report.pieces.filter((p) => p.segment !== 0).length;
     let out = `${args.split} block ${args.block} of ${blocks} (0–${blocks - 1}) · ${where} · ${m.tokenizer.name}\n`;
-    out += `${report.length} tokens: ${pieces} document piece${pieces === 1 ? "" : "s"}, ${report.document_tokens} document tokens, ${report.padding} padding, ${report.targets} targets\n\n`;
-    out += args.ids ? rowTable(input) : rowText(report, m.tokenizer.eos);
+    out += `${report.length} tokens: ${pieces} document piece${pieces === 1 ? "" : "s"}, ${report.document_tokens} document tokens, ${report.padding} padding, ${report.targets} targets\n`;
+    if (origins === undefined) out += `(no origins index: ${args.dir} was built before siftpack/2; rebuild to see which record each piece came from)\n`;
+    out += "\n";
+    if (args.ids && origins) out += origins.map((o) => `segment ${o.segment}: ${originText(o)}\n`).join("") + "\n";
+    out += args.ids ? rowTable(input) : rowText(report, m.tokenizer.eos, origins);
     if (args.mask !== undefined) out += `\nmask picture: ${args.mask}\n`;
     process.stdout.write(out);
   },

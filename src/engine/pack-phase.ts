@@ -60,8 +60,8 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
   const writerFor = (split: string) => {
     let w = writers.get(split);
     if (!w) {
-      const writer = new ShardWriter({ outDir: dir, split, length: pack.length, shardBlocks: config.output.shard_blocks, tokenDtype: o.out.tokenDtype, segmentDtype: o.out.segmentDtype, emit: pack.emit as Emit[], prefix });
-      const packer = createPacker(pack, o.out.eosId, (t, s) => writer.addRow(t, s), { seed: config.seed, split, group: group.g });
+      const writer = new ShardWriter({ outDir: dir, split, length: pack.length, shardBlocks: config.output.shard_blocks, tokenDtype: o.out.tokenDtype, segmentDtype: o.out.segmentDtype, emit: pack.emit as Emit[], prefix, origins: true });
+      const packer = createPacker(pack, o.out.eosId, (t, s, pieces) => writer.addRow(t, s, pieces), { seed: config.seed, split, group: group.g });
       writers.set(split, (w = { writer, packer }));
     }
     return w;
@@ -120,7 +120,9 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         crashPoint("records");
         ledger.kept(r, n !== 1 ? { copies: n } : {});
         const { writer, packer } = writerFor(split);
-        for (let c = 0; c < n; c++) packer.add(r.tokens!);
+        // Each piece's origin (as the ledger names the record) goes with it into the shard's origins index.
+        const origin = { source: r.source, id: r.id, file: r.origin.file, line: r.origin.line };
+        for (let c = 0; c < n; c++) packer.add(r.tokens!, c === 0 ? origin : { ...origin, copy: c });
         for (const f of feeds) await f.add(r);
         if (writer.pending > 0) await writer.writePending();
       };

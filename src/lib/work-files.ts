@@ -3,6 +3,7 @@
 import { createWriteStream, type WriteStream } from "node:fs";
 import { copyFile, link, mkdir, rename, rm, writeFile } from "node:fs/promises";
 import { once } from "node:events";
+import { finished } from "node:stream/promises";
 import { randomBytes } from "node:crypto";
 import { dirname } from "node:path";
 
@@ -66,7 +67,9 @@ export class AtomicStream {
 
   async commit(): Promise<void> {
     this.out.end();
-    await once(this.out, "close");
+    // finished() also settles for a stream that already failed and closed (a full disk mid-write),
+    // where waiting for "close" would wait forever.
+    await finished(this.out).catch((e) => (this.failure ??= e));
     if (this.failure) throw this.failure;
     await rename(this.tmp, this.path);
   }

@@ -13,7 +13,15 @@ import type { LedgerCounts } from "./ledger.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { Encoder } from "../tokenizer/index.js";
 
-export const FORMAT = "siftpack/1";
+/** The format written. 2: every shard has an origins index (`<stem>.origins.jsonl`, listed as `origins`). */
+export const FORMAT = "siftpack/2";
+/** Formats siftpack still reads (and replaces as an earlier build): 1 lacks only the origins index. */
+export const READABLE_FORMATS: readonly string[] = ["siftpack/1", FORMAT];
+
+/** Whether a parsed manifest's `format` is one of siftpack's. */
+export function isSiftpackFormat(format: unknown): boolean {
+  return typeof format === "string" && READABLE_FORMATS.includes(format);
+}
 
 export interface Manifest {
   format: string;
@@ -149,7 +157,7 @@ export async function readManifest(dir: string): Promise<Manifest> {
   } catch (err) {
     throw new SiftpackError("SP_MANIFEST", `${path}: not valid JSON: ${(err as Error).message}`, { cause: err });
   }
-  if (m?.format !== FORMAT) throw new SiftpackError("SP_MANIFEST", `${path}: not a siftpack manifest (format is ${JSON.stringify(m?.format)}, expected "${FORMAT}")`);
+  if (!isSiftpackFormat(m?.format)) throw new SiftpackError("SP_MANIFEST", `${path}: not a siftpack manifest (format is ${JSON.stringify(m?.format)}, expected "${FORMAT}")`);
   return m;
 }
 

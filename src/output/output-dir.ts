@@ -4,7 +4,7 @@
 import { mkdir, readdir, readFile, realpath, rename, rm, stat } from "node:fs/promises";
 import { basename, dirname, isAbsolute, join, relative, resolve, sep } from "node:path";
 import { SiftpackError, describeSystemError } from "../errors.js";
-import { FORMAT } from "./manifest.js";
+import { FORMAT, isSiftpackFormat } from "./manifest.js";
 import { unlistedFiles } from "./build-files.js";
 
 export function stagingDirOf(outDir: string): string {
@@ -52,7 +52,7 @@ async function notABuild(dir: string): Promise<string | undefined> {
   let files: unknown;
   try {
     const m = JSON.parse(await readFile(join(dir, "manifest.json"), "utf8"));
-    if (m?.format !== FORMAT) return notOurs(`its manifest.json is not a siftpack manifest (${m?.format === undefined ? "it has no format" : `format ${JSON.stringify(m.format)}`}, not "${FORMAT}")`);
+    if (!isSiftpackFormat(m?.format)) return notOurs(`its manifest.json is not a siftpack manifest (${m?.format === undefined ? "it has no format" : `format ${JSON.stringify(m.format)}`}, not "${FORMAT}")`);
     files = m.files;
   } catch (err) {
     const code = (err as NodeJS.ErrnoException).code;

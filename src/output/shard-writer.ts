@@ -5,6 +5,8 @@ import { dtypeBytes, encodeValues, npyHeader, type Dtype } from "./npy.js";
 import { writeFileAtomic } from "./atomic.js";
 import { hex64, loadHasher } from "../lib/hash.js";
 import type { HistogramBucket } from "../pack/length-histogram.js";
+import type { RowPiece } from "../pack/packer.js";
+import { originLines } from "../pack/origins.js";
 
 export type Emit = "positions" | "target_mask" | "cu_seqlens";
 
@@ -22,6 +24,8 @@ export interface ShardEntry {
   target_mask?: string;
   cu_seqlens?: string;
   cu_offsets?: string;
+  /** The origins index: the input record of every document piece (JSON lines). */
+  origins?: string;
 }
 
 export interface SplitStats {
@@ -53,6 +57,8 @@ export interface ShardWriterOptions {
   emit: readonly Emit[];
   /** Put before every shard's number in its file names (the packing group: "00003-"). */
   prefix?: string;
+  /** Write `<stem>.origins.jsonl` beside each shard from the rows' pieces (their `doc` a SegmentOrigin). */
+  origins?: boolean;
 }
 
 export class ShardWriter {
@@ -60,7 +66,8 @@ export class ShardWriter {
   private tokens: Uint32Array;
   private segments: Uint32Array;
   private rows = 0;
-  private readonly full: { tokens: Uint32Array; segments: Uint32Array; rows: number }[] = [];
+  private pieces: (readonly RowPiece[])[] = [];
+  private readonly full: { tokens: Uint32Array; segments: Uint32Array; rows: number; pieces: (readonly RowPiece[])[] }[] = [];
   private shardIndex = 0;
   /** The shard being written, if any. */
   private writing: Promise<void> = Promise.resolve();
@@ -87,16 +94,18 @@ export class ShardWriter {
   }
 
   /** Copies one row in (sync, called by the packer); full shards wait for `writePending`. */
-  addRow(tokens: Uint32Array, segments: Uint32Array): void {
+  addRow(tokens: Uint32Array, segments: Uint32Array, pieces: readonly RowPiece[] = []): void {
     const L = this.o.length;
     this.tokens.set(tokens, this.rows * L);
     this.segments.set(segments, this.rows * L);
+    if (this.o.origins) this.pieces.push(pieces);
     this.rows++;
     this.countRow(segments);
     if (this.rows === this.o.shardBlocks) {
-      this.full.push({ tokens: this.tokens, segments: this.segments, rows: this.rows });
+      this.full.push({ tokens: this.tokens, segments: this.segments, rows: this.rows, pieces: this.pieces });
       this.tokens = new Uint32Array(this.o.shardBlocks * L);
       this.segments = new Uint32Array(this.o.shardBlocks * L);
+      this.pieces = [];
       this.rows = 0;
     }
   }
@@ -132,7 +141,7 @@ export class ShardWriter {
     while (this.full.length > 0) {
       const shard = this.full.shift()!;
       await this.writing;
-      this.writing = this.writeShard(shard.tokens, shard.segments, shard.rows);
+      this.writing = this.writeShard(shard.tokens, shard.segments, shard.rows, shard.pieces);
       // Observed by the next writePending or by finish.
       this.writing.catch(() => {});
     }
@@ -142,13 +151,14 @@ export class ShardWriter {
   async finish(): Promise<void> {
     await this.writePending();
     await this.writing;
-    if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows);
+    if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows, this.pieces);
     this.rows = 0;
+    this.pieces = [];
     const s = this.stats;
     s.padding_fraction = paddingFraction(s.padding_tokens, s.blocks, this.o.length);
   }
 
-  private async writeShard(tokens: Uint32Array, segments: Uint32Array, rows: number): Promise<void> {
+  private async writeShard(tokens: Uint32Array, segments: Uint32Array, rows: number, pieces: (readonly RowPiece[])[]): Promise<void> {
     const L = this.o.length;
     const dir = join(this.o.outDir, this.o.split);
     await mkdir(dir, { recursive: true });
@@ -168,7 +178,20 @@ export class ShardWriter {
       entry.cu_seqlens = await this.writeArray(`${stem}.cu_seqlens.npy`, lens, "int32", [lens.length]);
       entry.cu_offsets = await this.writeArray(`${stem}.cu_offsets.npy`, offsets, "int64", [offsets.length]);
     }
+    if (this.o.origins) {
+      let text = "";
+      for (let r = 0; r < rows; r++) text += originLines(r, seg.subarray(r * L, (r + 1) * L), pieces[r]);
+      entry.origins = await this.writeBytes(`${stem}.origins.jsonl`, Buffer.from(text, "utf8"));
+    }
     this.stats.shards.push(entry);
+  }
+
+  private async writeBytes(name: string, bytes: Buffer): Promise<string> {
+    const rel = `${this.o.split}/${name}`;
+    await writeFileAtomic(join(this.o.outDir, rel), [bytes]);
+    const { create64 } = await loadHasher();
+    this.files.push({ path: rel, size: bytes.length, xxh64: hex64(create64(0n).update(bytes).digest()) });
+    return rel;
   }
 
   private async writeArray(name: string, values: Uint32Array, dtype: Dtype, shape: number[]): Promise<string> {

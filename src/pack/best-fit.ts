@@ -22,7 +22,10 @@ export class BestFitPacker extends RowPacker {
   private poolFill = 0;
   private pieceStart = new Float64Array(256);
   private pieceLen = new Uint32Array(256);
-  private pieces = 0;
+  /** Each buffered piece's document reference and offset within its document (see RowPiece). */
+  private pieceRef: unknown[] = [];
+  private pieceOffset: number[] = [];
+  private count = 0;
   private readonly index: CapacityIndex;
 
   constructor(length: number, padId: number, sink: RowSink, bufferDocs: number) {
@@ -32,23 +35,23 @@ export class BestFitPacker extends RowPacker {
     this.index = new CapacityIndex(length);
   }
 
-  add(doc: Uint32Array): void {
+  add(doc: Uint32Array, ref?: unknown): void {
     if (doc.length === 0) return;
     const L = this.length;
     this.tally.document(doc.length, Math.ceil(doc.length / L), Math.min(doc.length, L));
     for (let at = 0; at < doc.length; at += L) {
-      if (this.pieces === this.bufferDocs) this.packBuffer();
-      this.push(doc.subarray(at, Math.min(at + L, doc.length)));
+      if (this.count === this.bufferDocs) this.packBuffer();
+      this.push(doc.subarray(at, Math.min(at + L, doc.length)), ref, at);
     }
   }
 
   finish(): void {
-    if (this.pieces > 0) this.packBuffer();
+    if (this.count > 0) this.packBuffer();
   }
 
-  private push(piece: Uint32Array): void {
-    if (this.pieces === this.pieceLen.length) {
-      const n = Math.min(this.bufferDocs, this.pieces * 2);
+  private push(piece: Uint32Array, ref: unknown, offset: number): void {
+    if (this.count === this.pieceLen.length) {
+      const n = Math.min(this.bufferDocs, this.count * 2);
       const starts = new Float64Array(n);
       starts.set(this.pieceStart);
       this.pieceStart = starts;
@@ -62,15 +65,17 @@ export class BestFitPacker extends RowPacker {
       this.pool = pool;
     }
     this.pool.set(piece, this.poolFill);
-    this.pieceStart[this.pieces] = this.poolFill;
-    this.pieceLen[this.pieces] = piece.length;
+    this.pieceStart[this.count] = this.poolFill;
+    this.pieceLen[this.count] = piece.length;
+    this.pieceRef[this.count] = ref;
+    this.pieceOffset[this.count] = offset;
     this.poolFill += piece.length;
-    this.pieces++;
+    this.count++;
   }
 
   /** Best-fit decreasing over the buffered pieces; emits every row and empties the buffer. */
   private packBuffer(): void {
-    const n = this.pieces;
+    const n = this.count;
     const L = this.length;
     const len = this.pieceLen;
     const order = new Uint32Array(n);
@@ -109,11 +114,14 @@ export class BestFitPacker extends RowPacker {
         const start = this.pieceStart[p];
         this.tokens.set(this.pool.subarray(start, start + len[p]), fill);
         this.segments.fill(++segment, fill, fill + len[p]);
+        this.pieces.push({ doc: this.pieceRef[p], offset: this.pieceOffset[p] });
         fill += len[p];
       }
       this.emit(fill);
     }
-    this.pieces = 0;
+    this.count = 0;
+    this.pieceRef.length = 0;
+    this.pieceOffset.length = 0;
     this.poolFill = 0;
   }
 }

@@ -11,7 +11,7 @@ export class ConcatPacker extends RowPacker {
   private fill = 0;
   private segment = 0;
 
-  add(doc: Uint32Array): void {
+  add(doc: Uint32Array, ref?: unknown): void {
     if (doc.length === 0) return;
     const L = this.length;
     const room = L - this.fill;
@@ -19,6 +19,7 @@ export class ConcatPacker extends RowPacker {
     this.tally.document(doc.length, pieces, Math.min(doc.length, room));
     let at = 0;
     this.segment++;
+    this.pieces.push({ doc: ref, offset: 0 });
     while (at < doc.length) {
       const take = Math.min(L - this.fill, doc.length - at);
       this.tokens.set(doc.subarray(at, at + take), this.fill);
@@ -27,7 +28,10 @@ export class ConcatPacker extends RowPacker {
       at += take;
       if (this.fill === L) {
         this.flushRow();
-        if (at < doc.length) this.segment = 1;
+        if (at < doc.length) {
+          this.segment = 1;
+          this.pieces.push({ doc: ref, offset: at });
+        }
       }
     }
   }

@@ -1,13 +1,26 @@
 // The packer contract (documents in, fixed-length rows out) and the row buffer every strategy shares.
 import { PackTally, type PackStats } from "./tally.js";
 
-/** Receives full rows: `tokens` and `segments` are views valid only during the call. */
-export type RowSink = (tokens: Uint32Array, segments: Uint32Array) => void;
+/**
+ * One document piece of a row: what the caller passed to `add` with the document (its reference,
+ * e.g. where the record came from) and the piece's first token's offset within the document (0
+ * unless the document was cut before it). A row's pieces are in segment order: segment k is piece k − 1.
+ */
+export interface RowPiece {
+  doc: unknown;
+  offset: number;
+}
+
+/** Receives full rows: `tokens` and `segments` are views valid only during the call; `pieces` is the row's own. */
+export type RowSink = (tokens: Uint32Array, segments: Uint32Array, pieces: readonly RowPiece[]) => void;
 
 /** Turns a split's documents (token arrays) into rows; one packer per split. */
 export interface Packer {
-  /** Takes one document; the array may be reused by the caller after the call returns. */
-  add(doc: Uint32Array): void;
+  /**
+   * Takes one document; the array may be reused by the caller after the call returns. `ref` comes
+   * back with every piece of the document in the rows (`RowPiece.doc`); packing never looks at it.
+   */
+  add(doc: Uint32Array, ref?: unknown): void;
   /** Emits whatever is still buffered (padded). */
   finish(): void;
   /** Statistics so far (complete after `finish`). */
@@ -24,6 +37,8 @@ export abstract class RowPacker implements Packer {
   protected readonly tokens: Uint32Array;
   protected readonly segments: Uint32Array;
   protected readonly tally = new PackTally();
+  /** The pieces of the row under construction, in segment order. */
+  protected pieces: RowPiece[] = [];
   private readonly sink: RowSink;
 
   constructor(length: number, padId: number, sink: RowSink) {
@@ -34,7 +49,7 @@ export abstract class RowPacker implements Packer {
     this.sink = sink;
   }
 
-  abstract add(doc: Uint32Array): void;
+  abstract add(doc: Uint32Array, ref?: unknown): void;
   abstract finish(): void;
 
   /** Pads the row from `fill` on and hands it to the sink. */
@@ -43,7 +58,9 @@ export abstract class RowPacker implements Packer {
       this.tokens.fill(this.padId, fill);
       this.segments.fill(0, fill);
     }
-    this.sink(this.tokens, this.segments);
+    const pieces = this.pieces;
+    this.pieces = [];
+    this.sink(this.tokens, this.segments, pieces);
   }
 
   get stats(): PackStats {

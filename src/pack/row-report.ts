@@ -1,6 +1,7 @@
 // One packed row for a person: its pieces decoded to text between boundary lines, or a token-by-token table.
 import { segmentRuns } from "./segment-runs.js";
 import { positionsOf, targetMaskOf } from "../output/shard-writer.js";
+import type { OriginLine } from "./origins.js";
 
 export interface RowInput {
   tokens: Uint32Array;
@@ -40,8 +41,19 @@ export function describeRow(r: RowInput): RowReport {
   return { length: r.segments.length, pieces, document_tokens: r.segments.length - padding, padding, targets };
 }
 
-/** The decoded row: a boundary line before every piece (segment, token range, whether it was cut at its end), its text indented under it. */
-export function rowText(report: RowReport, eosAppended: boolean): string {
+/** Where a piece came from, for its boundary line: source, id, file and line, copy, and where in the document it starts if not at 0. */
+export function originText(o: OriginLine): string {
+  let out = `${o.source} ${JSON.stringify(o.id)} · ${o.file} line ${o.line}`;
+  if (o.copy) out += ` · copy ${o.copy + 1} (source weight)`;
+  if (o.offset > 0) out += ` · from the document's token ${o.offset}`;
+  return out;
+}
+
+/**
+ * The decoded row: a boundary line before every piece (segment, token range, whether it was cut at
+ * its end, and with `origins` the record it came from), its text indented under it.
+ */
+export function rowText(report: RowReport, eosAppended: boolean, origins?: readonly OriginLine[]): string {
   const out: string[] = [];
   for (const p of report.pieces) {
     const range = `tokens ${p.start}–${p.end - 1} (${p.end - p.start})`;
@@ -50,7 +62,9 @@ export function rowText(report: RowReport, eosAppended: boolean): string {
       continue;
     }
     const note = !eosAppended ? "" : p.ends_with_eos ? " · ends with end-of-text" : " · no end-of-text at its end: the document was cut here and continues in another block";
+    const o = origins?.find((x) => x.segment === p.segment);
     out.push(`┌─ segment ${p.segment} · ${range}${note}`);
+    if (o) out.push(`│ ◆ ${originText(o)}`);
     for (const line of p.text.split("\n")) out.push(`│ ${line}`);
   }
   return out.join("\n") + "\n";

@@ -1,5 +1,5 @@
 // Row shuffling between a packer and the shard writer: a seeded shuffle buffer of a bounded number of rows.
-import type { Packer, RowSink } from "./packer.js";
+import type { Packer, RowPiece, RowSink } from "./packer.js";
 import type { PackStats } from "./tally.js";
 import { Rng } from "./rng.js";
 
@@ -18,6 +18,8 @@ export class RowShuffle {
   private readonly out: RowSink;
   private tokens: Uint32Array;
   private segments: Uint32Array;
+  /** Each slot's pieces: they travel with their row. */
+  private readonly pieces: (readonly RowPiece[])[] = [];
   private count = 0;
 
   constructor(length: number, window: number, seed: number, out: RowSink) {
@@ -32,12 +34,13 @@ export class RowShuffle {
   }
 
   /** The sink to give the packer. */
-  readonly sink: RowSink = (tokens, segments) => {
+  readonly sink: RowSink = (tokens, segments, pieces) => {
     const L = this.length;
     if (this.count < this.window) {
       if ((this.count + 1) * L > this.tokens.length) this.grow();
       this.tokens.set(tokens, this.count * L);
       this.segments.set(segments, this.count * L);
+      this.pieces[this.count] = pieces;
       this.count++;
       return;
     }
@@ -45,6 +48,7 @@ export class RowShuffle {
     this.send(j);
     this.tokens.set(tokens, j * L);
     this.segments.set(segments, j * L);
+    this.pieces[j] = pieces;
   };
 
   /** Sends every buffered row out, in a uniformly random order (Fisher–Yates, drawing the next row each time). */
@@ -56,14 +60,16 @@ export class RowShuffle {
       if (j !== n - 1) {
         this.tokens.copyWithin(j * L, (n - 1) * L, n * L);
         this.segments.copyWithin(j * L, (n - 1) * L, n * L);
+        this.pieces[j] = this.pieces[n - 1];
       }
     }
     this.count = 0;
+    this.pieces.length = 0;
   }
 
   private send(slot: number): void {
     const L = this.length;
-    this.out(this.tokens.subarray(slot * L, (slot + 1) * L), this.segments.subarray(slot * L, (slot + 1) * L));
+    this.out(this.tokens.subarray(slot * L, (slot + 1) * L), this.segments.subarray(slot * L, (slot + 1) * L), this.pieces[slot] ?? []);
   }
 
   private grow(): void {
@@ -84,8 +90,8 @@ export class ShuffledPacker implements Packer {
     private readonly shuffle: RowShuffle,
   ) {}
 
-  add(doc: Uint32Array): void {
-    this.inner.add(doc);
+  add(doc: Uint32Array, ref?: unknown): void {
+    this.inner.add(doc, ref);
   }
 
   finish(): void {

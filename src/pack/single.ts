@@ -6,7 +6,7 @@ import { RowPacker } from "./packer.js";
  * document mask), paid for in padding: every row but full chunks ends in pad tokens.
  */
 export class SinglePacker extends RowPacker {
-  add(doc: Uint32Array): void {
+  add(doc: Uint32Array, ref?: unknown): void {
     if (doc.length === 0) return;
     const L = this.length;
     this.tally.document(doc.length, Math.ceil(doc.length / L), Math.min(doc.length, L));
@@ -14,6 +14,7 @@ export class SinglePacker extends RowPacker {
       const take = Math.min(L, doc.length - at);
       this.tokens.set(doc.subarray(at, at + take), 0);
       this.segments.fill(1, 0, take);
+      this.pieces.push({ doc: ref, offset: at });
       this.emit(take);
     }
   }

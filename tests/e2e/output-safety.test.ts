@@ -48,7 +48,7 @@ describe("folders a build may replace", () => {
     const r = siftpack(["run", join(dir, "p.yaml"), "--out", app]);
     expect(r.code).toBe(1);
     expect(r.stderr).toMatch(ONE_LINE);
-    expect(r.stderr).toMatch(/^siftpack: error: refusing to replace .*timetable-app: its manifest\.json is not a siftpack manifest \(it has no format, not "siftpack\/1"\), so it is not a siftpack output; choose a new or empty output directory\n$/);
+    expect(r.stderr).toMatch(/^siftpack: error: refusing to replace .*timetable-app: its manifest\.json is not a siftpack manifest \(it has no format, not "siftpack\/2"\), so it is not a siftpack output; choose a new or empty output directory\n$/);
     expect(snapshot(dir)).toEqual(before);
   });
 
@@ -87,15 +87,18 @@ describe("folders a build may replace", () => {
     expect(readFileSync(join(dir, "build/notes/train/wheel-lathe-log.txt"), "utf8")).toBe("lathe hours: 6\n");
   });
 
-  it("replaces an earlier build, with its report, and leaves no lock behind", () => {
+  it("replaces an earlier build (with a report written into it), keeps the report beside it, and leaves no lock behind", () => {
     const dir = project();
     expect(siftpack(["run", join(dir, "p.yaml")]).code).toBe(0);
     expect(siftpack(["report", join(dir, "build/notes")]).code).toBe(0);
+    expect(siftpack(["report", join(dir, "build/notes"), "--out", join(dir, "build/notes/report.html")]).code).toBe(0);
     const again = siftpack(["run", join(dir, "p.yaml")]);
     expect(again.code).toBe(0);
     expect(again.stderr).toBe("");
     expect(siftpack(["verify", join(dir, "build/notes")]).code).toBe(0);
-    expect(readdirSync(join(dir, "build")).sort()).toEqual([".notes.cache", "notes"]);
+    // The default report sits beside the build and outlives the rebuild; the one inside went with the old build.
+    expect(readdirSync(join(dir, "build")).sort()).toEqual([".notes.cache", "notes", "notes.report.html"]);
+    expect(existsSync(join(dir, "build/notes/report.html"))).toBe(false);
   });
 });
 

@@ -19,7 +19,7 @@ const installed = (bin: string) => spawnSync("sh", ["-c", `PATH="$PATH:/usr/sbin
 const missing = ["munged", "slurmctld", "slurmd", "sbatch", "squeue", "sinfo"].filter((b) => !installed(b));
 const cannotRun =
   missing.length > 0
-    ? `not installed: ${missing.join(", ")} (Debian packages slurm-wlm and munge; .ci/run installs them)`
+    ? `not installed: ${missing.join(", ")} (Debian packages slurm-wlm and munge; npm test installs them when run as root)`
     : process.getuid?.() !== 0
       ? "needs root: slurmd starts each job as its submitter"
       : undefined;
