@@ -3,6 +3,7 @@
 import { createWriteStream, type WriteStream } from "node:fs";
 import { rename } from "node:fs/promises";
 import { once } from "node:events";
+import { finished } from "node:stream/promises";
 import { createGzip, type Gzip } from "node:zlib";
 import type { DocRecord } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
@@ -85,7 +86,11 @@ class JsonLinesFile {
   async close(): Promise<void> {
     await this.handOn();
     this.head.end();
-    await once(this.out, "close");
+    // finished() settles for a stream that already failed and closed too (waiting for "close" would
+    // not); a failed gzip stream leaves the file stream open, so that one is closed here.
+    await finished(this.head).catch((e) => (this.failure ??= e));
+    if (this.failure) this.out.destroy();
+    await finished(this.out).catch((e) => (this.failure ??= e));
     if (this.failure) throw this.failure;
     await rename(`${this.path}.tmp`, this.path);
   }
