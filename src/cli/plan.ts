@@ -12,6 +12,7 @@ import { slurmFiles } from "../launch/emit-slurm.js";
 import { kubernetesFiles } from "../launch/emit-kubernetes.js";
 import { writeLaunchFiles } from "../launch/launch-file.js";
 import type { StageEntry } from "../pipeline/config.js";
+import { filterAssumptions } from "../filter/assumptions.js";
 import type { Issue } from "../pipeline/schema.js";
 
 interface Args {
@@ -134,6 +135,7 @@ export const planCommand: CommandModule<object, Args> = {
     }
     let out = `# plan for ${plan.pipeline} (pipeline hash ${p.hash}); output to ${plan.output.resolved_dir}\n`;
     out += p.config.stages.map((s, i) => `# ${i + 1}. ${s.name}: ${STAGES[s.name].summary}`).join("\n") + "\n";
+    out += filterAssumptions(p.config.stages).map((l) => `# ${l}\n`).join("");
     out += stringify({ siftpack: 1, seed: p.config.seed, max_bad_fraction: p.config.max_bad_fraction, sources: p.config.sources, stages, output: p.config.output });
     if (derived.length > 0) {
       out += "# derived from the settings above (figures, not keys of a pipeline file):\n";

@@ -51,10 +51,56 @@ export function recordsLine(m: Manifest): string {
   return `records: ${r.read} read, ${r.kept} kept, ${r.dropped} dropped, ${r.quarantined} quarantined${reasons ? ` (${reasons})` : ""}${truncated}\n`;
 }
 
+/** Per decontaminate stage: the share of checked training records removed, the n-grams behind it, a warning above its threshold. */
+export function decontaminationLines(m: Manifest): string {
+  const list = (m.decontamination ?? []) as DecontaminationEntry[];
+  let out = "";
+  for (const d of list) {
+    const removed = d.dropped ?? d.marked ?? 0;
+    const verb = d.marked !== undefined ? "marked" : "dropped";
+    out += `decontaminate: ${removed} of ${d.checked} checked train records ${verb} (${pct(removed, d.checked)}; every match in ${d.file})\n`;
+    // The three most frequent, one a line: a 13-gram is a long line already.
+    const top = d.top_ngrams.filter((g) => !g.ignored).slice(0, 3);
+    if (top.length && removed > 0) out += `  most frequent shared n-grams, in train records:\n` + top.map((g) => `  ${String(g.records).padStart(7)}  "${g.ngram}"\n`).join("");
+    if (d.boilerplate_docs !== undefined) out += `  ignored as boilerplate (in more than ${d.boilerplate_docs} train records): ${d.ignored_ngrams} n-grams; ${d.boilerplate_only} records matched only those and were kept\n`;
+    if (d.above_warning)
+      out += `WARNING: decontaminate ${verb} more than warn_share ${pct(d.warn_share, 1)} of train. ${d.boilerplate_docs === undefined ? "If the n-grams above are format boilerplate, set boilerplate_docs on the stage" : "If the n-grams above are boilerplate, lower boilerplate_docs"}; if the loss is expected, raise warn_share.\n`;
+  }
+  return out;
+}
+
+/** The manifest's `decontamination` entry (src/stages/decontaminate-report.ts writes it). */
+interface DecontaminationEntry {
+  file: string;
+  checked: number;
+  dropped?: number;
+  marked?: number;
+  warn_share: number;
+  above_warning: boolean;
+  boilerplate_docs?: number;
+  ignored_ngrams?: number;
+  boilerplate_only?: number;
+  top_ngrams: { ngram: string; records: number; ignored?: boolean }[];
+}
+
+/** Filter rules that could not judge some records (no stop-word list for their language, no spaces): they passed them. */
+export function skippedRulesLine(m: Manifest): string {
+  const byRule = new Map<string, [string, number][]>();
+  for (const [k, n] of Object.entries((m.stage_counts ?? {}) as Record<string, number>)) {
+    const at = /^filter:skipped:([^:]+):(.+)$/.exec(k);
+    if (at && n > 0) byRule.set(at[1], [...(byRule.get(at[1]) ?? []), [at[2], n]]);
+  }
+  if (byRule.size === 0) return "";
+  const rules = [...byRule].map(([rule, whys]) => `${rule} ${whys.reduce((a, [, n]) => a + n, 0)} (${whys.map(([why, n]) => `${why} ${n}`).join(", ")})`);
+  return `filter: records a rule could not judge and passed: ${rules.join("; ")}\n`;
+}
+
 export function formatSummary(dir: string, m: Manifest): string {
   return (
     `built ${dir}  (${m.tokenizer.name}, blocks of ${m.length} ${m.dtype} tokens, ${m.strategy} packing, build ${m.build_hash})\n` +
     recordsLine(m) +
+    skippedRulesLine(m) +
+    decontaminationLines(m) +
     splitTable(m)
   );
 }

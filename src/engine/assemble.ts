@@ -23,6 +23,7 @@ import { groupDir, type GroupResult } from "./pack-phase.js";
 import type { AnalysisContext, AnalysisSteps } from "../analysis/steps.js";
 import type { KeyedDirs } from "../stages/keyed.js";
 import { STAGES } from "../stages/index.js";
+import { decontaminationOf } from "../stages/decontaminate-report.js";
 import type { TaskDone } from "./workdir.js";
 
 export interface AssembleInput {
@@ -120,6 +121,9 @@ export async function assemblePhase(env: TaskEnv, { packPhase, groupCount, analy
     throw err;
   }
   const analysis: Record<string, unknown> = { stage_counts: Object.fromEntries(Object.entries(stageCounts).sort(([a], [b]) => (a < b ? -1 : 1))) };
+  // What decontamination removed and the n-grams behind it, from its report files (README, decontaminate).
+  const decontamination = decontaminationOf(staging, stageFiles);
+  if (decontamination) analysis.decontamination = decontamination;
   for (const a of analyses) analysis[a.steps.key] = await a.steps.figures(a.ctx, a.dirs, { seed: config.seed, baseDir: p.baseDir, log: env.log, count, tmpDir: staging });
 
   const splitOrder = ["train", "val", "test"];

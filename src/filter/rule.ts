@@ -14,8 +14,15 @@ export interface Rule<O extends object> {
   overrides: Schema<Partial<O>>;
   /** Cross-key checks on the merged thresholds (e.g. min ≤ max). */
   validate?(o: O, path: Path, issues: Issue[]): void;
-  /** undefined when the document passes, else what was measured against which limit. */
-  check(doc: DocView, o: O): Detail | undefined;
+  /** undefined when the document passes, else what was measured against which limit, or `Skipped` when the rule cannot judge it. */
+  check(doc: DocView, o: O): Detail | Skipped | undefined;
+  /** What the rule assumes about the text (README's filter table, `plan`). */
+  assumes?: string;
+}
+
+/** A rule that cannot judge a document (no stop-word list for its language, no spaces between words): it passes, and is counted. */
+export class Skipped {
+  constructor(readonly why: string) {}
 }
 
 /** Rounds a measured fraction for the ledger, so lines stay short and stable. */

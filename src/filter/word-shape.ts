@@ -1,6 +1,6 @@
 // Word-shape rules: mean word length, and the share of words that contain a letter.
 import { field, num, obj, type Schema } from "../pipeline/schema.js";
-import { round, type Rule } from "./rule.js";
+import { round, Skipped, type Rule } from "./rule.js";
 
 const LETTER = /\p{L}/u;
 
@@ -23,7 +23,11 @@ export const meanWordLength: Rule<Range> = {
   validate(o, path, issues) {
     if (o.max < o.min) issues.push({ path: [...path, "max"], message: `max (${o.max}) is below min (${o.min})` });
   },
+  assumes: "words separated by spaces; skipped (counted) for text written without spaces",
   check(doc, o) {
+    // Chinese or Japanese words are one or two characters, and by spaces a whole sentence is one word:
+    // neither says anything about quality against a range tuned on English.
+    if (doc.spaceless) return new Skipped("no-spaces");
     const lengths = doc.wordChars;
     let chars = 0;
     for (let i = 0; i < lengths.length; i++) chars += lengths[i];

@@ -106,8 +106,8 @@ export async function writeManifest(dir: string, m: ManifestInput): Promise<Mani
     tool: {
       name: "siftpack",
       version: toolVersion(),
-      // Versions of the packages whose code decides output bytes (rank tables, hashing, gzip is Node's own).
-      dependencies: { "js-tiktoken": versionOf("js-tiktoken"), "xxhash-wasm": versionOf("xxhash-wasm"), node_zlib: process.versions.zlib },
+      // Versions of the packages whose code decides output bytes (rank tables, hashing, stop-word lists; gzip and ICU's word segments are Node's own).
+      dependencies: { "js-tiktoken": versionOf("js-tiktoken"), "xxhash-wasm": versionOf("xxhash-wasm"), node_zlib: process.versions.zlib, stopword: versionOf("stopword"), node_icu: process.versions.icu ?? "none" },
     },
     pipeline: { file: basename(m.pipeline.file), hash: m.pipeline.hash, resolved },
     seed: m.pipeline.config.seed,

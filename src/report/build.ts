@@ -10,6 +10,7 @@ import { clustersSection, readClusters } from "./clusters.js";
 import { configuredFields, excerpts, withoutInputText, type Excerpt } from "./excerpts.js";
 import { packingSection, pickMaskRow } from "./packing.js";
 import { overlapSection } from "./overlap.js";
+import { decontaminationSection } from "./decontamination.js";
 import { provenanceSection } from "./provenance.js";
 import { page } from "./page.js";
 import { resetIds } from "./svg.js";
@@ -61,6 +62,7 @@ export async function buildReport(dir: string, label = dir, o: ReportOptions = {
       { id: "clusters", title: "Near-duplicate clusters", nav: "Near-duplicates", html: clustersSection(m, clusters, texts) },
       { id: "packing", title: "Packing: padding and cuts", nav: "Packing", html: packingSection(m, mask) },
       { id: "overlap", title: "Overlap between splits", nav: "Overlap", html: overlapSection(m) },
+      { id: "decontamination", title: "Decontamination against protected texts", nav: "Decontamination", html: decontaminationSection(m, o.excerpts !== false) },
       { id: "provenance", title: "Inputs, pipeline and build", nav: "Provenance", html: provenanceSection(m) },
     ],
   });

@@ -66,6 +66,7 @@ q { font-style: italic; }
 .small { font-size: 0.85rem; }
 .muted, .note { color: var(--muted); }
 .note { background: var(--panel); border-left: 4px solid var(--line); padding: 0.6rem 0.9rem; }
+.warn { background: var(--panel); border-left: 4px solid var(--drop); padding: 0.6rem 0.9rem; }
 dl.facts { display: grid; grid-template-columns: max-content 1fr; gap: 0.25rem 1rem; }
 dl.facts dt { color: var(--muted); }
 dl.facts dd { margin: 0; overflow-wrap: anywhere; }

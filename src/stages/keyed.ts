@@ -319,16 +319,17 @@ export async function keyedApplier<O>(form: KeyedForm<O>, o: O, dirs: KeyedDirs,
 /**
  * The keyed form as a plain stream stage: the input is one unit and one partition, its records
  * kept in a temporary file while the steps run, then read back in order with the decisions applied.
- * Build files land in `ctx.workDir`.
+ * Build files land in `ctx.workDir`. `baseDir` is the pipeline's directory, against which a stage
+ * resolves the paths in its options (default: the work directory, as before).
  */
-export function keyedStage<O>(form: KeyedForm<O>, o: O, threads: number): Stage {
+export function keyedStage<O>(form: KeyedForm<O>, o: O, threads: number, baseDir?: string): Stage {
   return async function* keyed(input, ctx) {
     const base = ctx.workDir || tmpdir();
     await mkdir(base, { recursive: true });
     const dir = await mkdtemp(join(base, ".keyed-"));
     try {
       const dirs = new KeyedDirs(join(dir, "collect"), join(dir, "partition"), form.resolve ? join(dir, "resolve") : undefined, 1, 1);
-      const env: KeyedEnv = { seed: ctx.seed, baseDir: base, threads, log: ctx.log, count: ctx.count };
+      const env: KeyedEnv = { seed: ctx.seed, baseDir: baseDir ?? base, threads, log: ctx.log, count: ctx.count };
       const collectors = await form.collectors(o, env);
       const spill = await AtomicStream.open(join(dir, "records.bin"));
       try {
@@ -345,7 +346,7 @@ export function keyedStage<O>(form: KeyedForm<O>, o: O, threads: number): Stage 
       } finally {
         await collectors.close();
       }
-      const sc = { seed: ctx.seed, baseDir: base, log: ctx.log, count: ctx.count };
+      const sc = { seed: ctx.seed, baseDir: baseDir ?? base, log: ctx.log, count: ctx.count };
       await partitionStep(form, o, dirs, 0, sc);
       for (const f of await resolveStep(form, o, dirs, sc)) {
         // A stage used twice in one directory writes clusters.jsonl, then clusters-2.jsonl, …

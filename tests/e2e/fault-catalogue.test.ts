@@ -304,6 +304,31 @@ const ROWS: Row[] = [
     message: /p\.yaml:3:8: aliases \(\*a and others\) expand into more than 100 copies of their values; write the values out instead of nesting aliases$/,
     finished: false,
   },
+  {
+    name: "a stop-word language without a list",
+    setup: () => {
+      const dir = tempDir("stop-language");
+      writeFileSync(join(dir, "p.yaml"), "siftpack: 1\nsources:\n  - { name: tickets, files: a.jsonl, format: jsonl }\nstages:\n  - filter: { stop_words: { language: cy } }\n  - tokenize: {}\n  - pack: { length: 32 }\noutput: { dir: out }\n");
+      return { dir, pipeline: join(dir, "p.yaml") };
+    },
+    args: (c) => ["plan", c.pipeline!],
+    code: 2,
+    message: /p\.yaml: 1 problem in the pipeline file$/,
+    details: [/^.*p\.yaml:5:\d+: stages\[0\]\.filter\.stop_words\.language: expected auto or a language code with a stop-word list \(e\.g\. en, de, fr, ja, zh\), got "cy" \(did you mean "ca"\?\)$/],
+    finished: false,
+  },
+  {
+    name: "a protected file for decontaminate that does not exist",
+    setup: () => {
+      const p = project({ "data/a.jsonl": lines(...GOOD) });
+      writeFileSync(p.pipeline, readFileSync(p.pipeline, "utf8").replace("stages:\n", "stages:\n  - decontaminate: { against: protected/eval.txt }\n"));
+      return { ...p, untouched: copyDemoBuild(p.out) };
+    },
+    args: run,
+    code: 1,
+    message: /decontaminate: no file matches "protected\/eval\.txt" \(relative to .*\)$/,
+    finished: false,
+  },
   ...(
     [
       ["an id of 2^40", tokenizerWith((j) => (j.model.vocab["Ġdepot"] = 2 ** 40)), /vocab entry "Ġdepot" has id 1099511627776, above the largest id 4294967295$/],

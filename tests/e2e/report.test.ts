@@ -67,7 +67,7 @@ describe("the demo report in a browser", () => {
 
   it("has every section and every chart, each with visible marks", async () => {
     const sections = await page.$$eval("main > section", (els) => els.map((e) => e.id));
-    expect(sections).toEqual(["records", "splits", "lengths", "clusters", "packing", "overlap", "provenance"]);
+    expect(sections).toEqual(["records", "splits", "lengths", "clusters", "packing", "overlap", "decontamination", "provenance"]);
     const charts = await page.$$eval("svg.chart", (svgs) =>
       svgs.map((svg) => {
         const section = svg.closest("section")!.id;
@@ -82,6 +82,7 @@ describe("the demo report in a browser", () => {
     expect(bySection("lengths")).toHaveLength(1);
     expect(bySection("packing")).toHaveLength(2); // block capacity and the attention mask
     expect(bySection("overlap")).toHaveLength(1);
+    expect(bySection("decontamination")).toHaveLength(1);
     const minhash = (manifest.pipeline.resolved as { stages: { name: string; options: { method?: string } }[] }).stages.some((s) => s.name === "dedup" && s.options.method === "minhash");
     expect(bySection("clusters")).toHaveLength(minhash ? 1 : 0);
     if (!minhash) expect(await page.textContent("#clusters")).toContain("No near-duplicate stage ran");
@@ -137,6 +138,9 @@ describe("the demo report in a browser", () => {
     manifest.inputs.forEach((_, i) => expect(seen).toContain(JSON.stringify(["inputs", i, "xxh64"])));
     expect(seen).toContain(JSON.stringify(["build_hash"]));
     ((manifest.overlap as { pairs: unknown[] }).pairs ?? []).forEach((_, i) => expect(seen).toContain(JSON.stringify(["overlap", "pairs", i, "ngram_fraction"])));
+    // Decontamination: the share of train dropped, its threshold, and the record count of every n-gram listed.
+    for (const k of ["checked", "dropped", "share", "warn_share"]) expect(seen).toContain(JSON.stringify(["decontamination", 0, k]));
+    (manifest.decontamination as { top_ngrams: unknown[] }[])[0].top_ngrams.forEach((_, i) => expect(seen).toContain(JSON.stringify(["decontamination", 0, "top_ngrams", i, "records"])));
     const embedded = JSON.parse((await page.textContent("#figures"))!);
     expect(embedded).toEqual(statsJson);
   });
@@ -231,6 +235,10 @@ describe("siftpack report on the command line", () => {
     expect(r.code).toBe(0);
     const html = readFileSync(target, "utf8");
     expect(html).toContain(manifest.build_hash);
+    // The shared n-grams are words of the input: quoted in the full report, left out without excerpts.
+    const ngram = (manifest.decontamination as { top_ngrams: { ngram: string }[] }[])[0].top_ngrams[0].ngram;
+    expect(readFileSync(reportPath, "utf8")).toContain(ngram);
+    expect(html).not.toContain(ngram);
     const bad = siftpack(["report", tempDir("empty")]);
     expect(bad.code).toBe(1);
     expect(bad.stderr).toMatch(/manifest\.json: cannot read the manifest/);

@@ -30,7 +30,7 @@ describe("filter options", () => {
       mean_word_length: { min: 3, max: 10 },
       alpha_words: { min: 0.8 },
       symbol_ratio: { max: 0.1 },
-      stop_words: { min: 2, words: ["the", "be", "to", "of", "and", "that", "have", "with"] },
+      stop_words: { min: 2, language: "auto" },
       bullet_lines: { max: 0.9 },
       ellipsis_lines: { max: 0.3 },
       duplicate_lines: { max_lines: 0.3, max_chars: 0.2 },

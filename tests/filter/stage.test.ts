@@ -59,7 +59,7 @@ describe("filter stage", () => {
       "the #depot and #car on #road with #tram",
     ]);
     expect(drops.map((d) => d.reason)).toEqual(["filter:alpha_words", "filter:stop_words", "filter:symbol_ratio"]);
-    expect(drops[1].detail).toEqual({ found: 0, min: 2 });
+    expect(drops[1].detail).toEqual({ found: 0, min: 2, language: "en" });
   });
 
   it("keeps the plain length bounds working, under their option names", () => {

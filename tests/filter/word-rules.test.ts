@@ -60,15 +60,15 @@ describe("symbol_ratio (at most 0.1 hash signs or ellipses per word)", () => {
 describe("stop_words (at least 2 different of: the, be, to, of, and, that, have, with)", () => {
   it("passes two different stop words and fails one, however often it repeats", () => {
     expect(verdict(stopWords, "Moved the car to road 4.")).toBeUndefined();
-    expect(verdict(stopWords, "Moved the car, the tractor, the wagon onto road 4.")).toEqual({ found: 1, min: 2 });
-    expect(verdict(stopWords, "Car 4711 road 4 done.")).toEqual({ found: 0, min: 2 });
+    expect(verdict(stopWords, "Moved the car, the tractor, the wagon onto road 4.")).toEqual({ found: 1, min: 2, language: "en" });
+    expect(verdict(stopWords, "Car 4711 road 4 done.")).toEqual({ found: 0, min: 2, language: "en" });
   });
   it("ignores case and punctuation at the word's edges, but not inside words", () => {
     expect(verdict(stopWords, "THE brake, (WITH) a new pad")).toBeUndefined();
-    expect(verdict(stopWords, "theory within together")).toEqual({ found: 0, min: 2 });
+    expect(verdict(stopWords, "theory within together")).toEqual({ found: 0, min: 2, language: "en" });
   });
   it("takes a list of the user's own for another language", () => {
-    const german = { min: 2, words: ["der", "die", "das", "und", "mit"] };
+    const german = { min: 2, language: "auto", words: ["der", "die", "das", "und", "mit"] };
     expect(verdict(stopWords, "Die Tür und der Sensor", german)).toBeUndefined();
     expect(verdict(stopWords, "The door and the sensor", german)).toEqual({ found: 0, min: 2 });
   });
