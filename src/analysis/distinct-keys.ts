@@ -22,6 +22,32 @@ export function countSortedDistinct(w: Uint32Array, n: number): number {
   return d;
 }
 
+/** The spill file (of `files`) a key goes to, by its low half: equal keys meet in one file. */
+export function spillOf(lo: number, files: number): number {
+  return Math.floor((lo * files) / 4294967296);
+}
+
+/** Whether 64-bit key a (halves ahi, alo) sorts before key b, as unsigned numbers. */
+function before(ahi: number, alo: number, bhi: number, blo: number): boolean {
+  return ahi < bhi || (ahi === bhi && alo < blo);
+}
+
+/**
+ * Calls `found(j)` for every entry j of `wanted` (sorted 64-bit keys, pairs of halves in this machine's
+ * layout) that is among the first n entries of `sorted` (likewise): one merging pass, reading both in
+ * order (a hash lookup per key of `sorted` would miss the caches at every key).
+ */
+export function mergeFind(sorted: Uint32Array, n: number, wanted: Uint32Array, found: (j: number) => void): void {
+  const m = wanted.length / 2;
+  let i = 0;
+  for (let j = 0; j < m && i < n; j++) {
+    const whi = wanted[2 * j + HI];
+    const wlo = wanted[2 * j + LO];
+    while (i < n && before(sorted[2 * i + HI], sorted[2 * i + LO], whi, wlo)) i++;
+    if (i < n && sorted[2 * i + HI] === whi && sorted[2 * i + LO] === wlo) found(j);
+  }
+}
+
 export class DistinctKeys {
   private readonly memory: Uint32Array | undefined;
   private used = 0;
@@ -52,7 +78,7 @@ export class DistinctKeys {
     }
     const n = this.spills.length;
     for (let i = 0; i < words.length; i += 2) {
-      const s = this.spills[Math.floor((words[i + LO] * n) / 4294967296)];
+      const s = this.spills[spillOf(words[i + LO], n)];
       s.buf[2 * s.used] = words[i];
       s.buf[2 * s.used + 1] = words[i + 1];
       if (++s.used === this.spillBuffer) this.drain(s);
@@ -67,15 +93,24 @@ export class DistinctKeys {
     s.used = 0;
   }
 
-  /** The number of distinct keys added; removes the spill files. */
-  count(): number {
+  /** Files the keys are spread over by their low half (spillOf), or 0 when they are held in memory. */
+  get spillFiles(): number {
+    return this.spills.length;
+  }
+
+  /**
+   * The number of distinct keys added; removes the spill files. `visit` (optional) sees the keys
+   * sorted, once per spill file (`spill`: its number, see spillOf) or once for all (spill −1).
+   */
+  count(visit?: (sorted: Uint32Array, n: number, spill: number) => void): number {
     if (this.memory) {
       new BigUint64Array(this.memory.buffer, 0, this.used).sort();
+      visit?.(this.memory, this.used, -1);
       return countSortedDistinct(this.memory, this.used);
     }
     let d = 0;
     try {
-      for (const s of this.spills) {
+      for (const [index, s] of this.spills.entries()) {
         this.drain(s);
         const w = new Uint32Array(2 * s.keys);
         const b = new Uint8Array(w.buffer);
@@ -86,6 +121,7 @@ export class DistinctKeys {
           got += n;
         }
         new BigUint64Array(w.buffer).sort();
+        visit?.(w, s.keys, index);
         d += countSortedDistinct(w, s.keys);
       }
     } finally {

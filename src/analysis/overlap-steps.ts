@@ -48,7 +48,7 @@ import { UnigramCounts } from "../overlap/divergence.js";
 import { HashMap64 } from "../overlap/hash-map64.js";
 import { heldOutPairs, nearDupDescription, ngramCounts, pairFigures, splitOrder, wordsDescription, type NearDupSettings, type OverlapFigures } from "../overlap/figures.js";
 import type { WordForm } from "../overlap/words.js";
-import { DISTINCT_BUDGET, DistinctKeys, HI, LO } from "./distinct-keys.js";
+import { DISTINCT_BUDGET, DistinctKeys, HI, LO, mergeFind, spillOf } from "./distinct-keys.js";
 import { hashPool, keyPartition, TextBatch, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
 import { nearDupOf, overlapApplies, vocabSizeOf } from "./overlap-settings.js";
 
@@ -345,6 +345,21 @@ interface PartitionCounts {
   pairs: { seen: number; exact: number; sharing: number; near_pairs: number; near_hits: number }[];
 }
 
+/** The map's keys as sorted 64-bit keys (pairs of halves in this machine's layout), one list per spill file of a DistinctKeys (one list when it spills not). */
+function sortedBySpill(map: HashMap64, spills: number): Uint32Array[] {
+  const lists = Array.from({ length: Math.max(1, spills) }, () => uint32s());
+  map.forEach((hi, lo) => {
+    const l = lists[spills > 0 ? spillOf(lo, spills) : 0];
+    if (LO === 0) l.push(lo), l.push(hi);
+    else l.push(hi), l.push(lo);
+  });
+  return lists.map((l) => {
+    const w = l.view().slice();
+    new BigUint64Array(w.buffer).sort();
+    return w;
+  });
+}
+
 /** N-gram and text figures of partition p into `counts` and `sharing`; returns train's distinct keys in p. */
 async function ngramPartition(files: KeyedFiles, p: number, s: Setup, tmpDir: string, counts: PartitionCounts, sharing: Grow<Uint32Array>[]): Promise<number> {
   const H = s.held.length;
@@ -380,23 +395,20 @@ async function ngramPartition(files: KeyedFiles, p: number, s: Setup, tmpDir: st
   const textMask = new Uint32Array(distinct * W);
   for (let i = 0; i < n; i++) (isText[i] ? textMask : gramMask)[keyOf[i] * W + (splitOf[i] >> 5)] |= 1 << (splitOf[i] & 31);
 
-  // Train's keys of p, streamed past the held-out ones, and counted.
+  // Train's keys of p, counted; the held-out keys found among them as the counter sorts them (a
+  // merge of two sorted lists: one hash lookup per train key would miss the caches at every key).
   const inTrain = new Uint8Array(distinct);
   const sizes: number[] = [];
   for (let g = 0; g < files.units; g++) sizes.push(await files.size("ng-train", g, p));
   const counter = new DistinctKeys(sizes.reduce((a, b) => a + b, 0) / 8, tmpDir, overlapLimits.distinctBudget);
   let trainKeys: number;
   try {
-    for (let g = 0; g < files.units; g++)
-      eachChunk(files.path("ng-train", g, p), sizes[g], 2, (w) => {
-        if (distinct > 0)
-          for (let x = 0; x < w.length; x += 2) {
-            const k = map.get(w[x + HI], w[x + LO]);
-            if (k >= 0) inTrain[k] = 1;
-          }
-        counter.add(w);
-      });
-    trainKeys = counter.count();
+    for (let g = 0; g < files.units; g++) eachChunk(files.path("ng-train", g, p), sizes[g], 2, (w) => counter.add(w));
+    const wanted = sortedBySpill(map, counter.spillFiles);
+    trainKeys = counter.count((sorted, n, spill) => {
+      const want = wanted[Math.max(0, spill)];
+      mergeFind(sorted, n, want, (j) => (inTrain[map.get(want[2 * j + HI], want[2 * j + LO])] = 1));
+    });
   } finally {
     counter.close();
   }
