@@ -81,7 +81,7 @@ describe("decontamination against format boilerplate, end to end", () => {
     expect(m.decontamination[0]).toMatchObject({ dropped: 3, boilerplate_docs: 10, ignored_ngrams: 4, boilerplate_only: 117, above_warning: false });
     expect(m.records.by_reason).toEqual({ decontaminated: 3 });
     const report = JSON.parse(readFileSync(join(dir, "spared", "out", "decontaminate.json"), "utf8"));
-    expect(report.matches.map((x: { id: string }) => x.id)).toEqual(PLANTED.map((n) => `pages:${n + 1}`));
+    expect(report.matches.map((x: { id: string }) => x.id)).toEqual(PLANTED.map((n) => `pages:pages-${Math.floor(n / 40)}.jsonl:${(n % 40) + 1}`));
     expect(report.matches[0].ngram).toBe(PASSAGE.replace(".", "").toLowerCase().split(" ").slice(0, 13).join(" "));
   });
 

@@ -308,6 +308,8 @@ const ROWS: Row[] = [
     name: "a stop-word language without a list",
     setup: () => {
       const dir = tempDir("stop-language");
+      // The input exists, so the language is the one problem.
+      writeFileSync(join(dir, "a.jsonl"), '{"text":"the tram left the depot"}\n');
       writeFileSync(join(dir, "p.yaml"), "siftpack: 1\nsources:\n  - { name: tickets, files: a.jsonl, format: jsonl }\nstages:\n  - filter: { stop_words: { language: cy } }\n  - tokenize: {}\n  - pack: { length: 32 }\noutput: { dir: out }\n");
       return { dir, pipeline: join(dir, "p.yaml") };
     },
