@@ -2,7 +2,6 @@
 // the input record it came from. Written by the shard writer, read by `inspect`.
 import { readFile } from "node:fs/promises";
 import type { RowPiece } from "./packer.js";
-import { segmentRuns } from "./segment-runs.js";
 
 /** Where a packed document came from: the record's source, id, input file and line (as in the ledger). */
 export interface SegmentOrigin {
@@ -29,17 +28,38 @@ export interface OriginLine extends SegmentOrigin {
  * the rows (JSON lines rather than .npy: ids and file names are strings, and a person can read it).
  */
 export function originLines(row: number, segments: Uint32Array, pieces: readonly RowPiece[]): string {
-  const runs = segmentRuns(segments).filter((r) => r.segment !== 0);
-  if (runs.length !== pieces.length) throw new Error(`row ${row}: ${runs.length} segments but ${pieces.length} document pieces`);
   let out = "";
-  for (let k = 0; k < runs.length; k++) {
+  let start = 0;
+  for (let k = 0; k < pieces.length; k++) {
+    const segment = k + 1;
+    if (segments[start] !== segment) throw new Error(`row ${row}: segment ${segment} does not start at ${start} (${pieces.length} document pieces)`);
+    const end = runEnd(segments, segment, start);
     const o = pieces[k].doc as SegmentOrigin | undefined;
-    if (o === undefined) throw new Error(`row ${row}, segment ${runs[k].segment}: a document piece without its origin`);
-    const line: OriginLine = { row, segment: runs[k].segment, start: runs[k].start, end: runs[k].end, offset: pieces[k].offset, source: o.source, id: o.id, file: o.file, line: o.line };
+    if (o === undefined) throw new Error(`row ${row}, segment ${segment}: a document piece without its origin`);
+    const line: OriginLine = { row, segment, start, end, offset: pieces[k].offset, source: o.source, id: o.id, file: o.file, line: o.line };
     if (o.copy) line.copy = o.copy;
     out += JSON.stringify(line) + "\n";
+    start = end;
   }
+  if (start < segments.length && segments[start] !== 0) throw new Error(`row ${row}: segment ${segments[start]} at ${start} has no document piece`);
   return out;
+}
+
+/**
+ * Where the run of `segment` that starts at `from` ends. A row's segment ids count up from 1 and its
+ * padding (0) comes last, so "nonzero and at most `segment`" holds on the run and before it and on
+ * nothing after: a binary search finds the end without reading every token's segment.
+ */
+function runEnd(segments: Uint32Array, segment: number, from: number): number {
+  let lo = from + 1;
+  let hi = segments.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    const v = segments[mid];
+    if (v !== 0 && v <= segment) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo;
 }
 
 /** The index lines of row `row` of a shard's origins file (the whole file is read: it is small beside the shard). */
