@@ -91,16 +91,17 @@ writeFileSync(
   runner,
   `const { main } = await import(${JSON.stringify(new URL("../dist/cli/main.js", import.meta.url).href)});
 const t0 = performance.now();
-const rc = await main(["run", process.argv[2], "--workers", process.argv[3], "--no-cache", "--json"]);
+const rc = await main(["run", process.argv[2], "--workers", process.argv[3], ...(process.argv[4] === "again" ? [] : ["--no-cache"]), "--json"]);
 process.stderr.write("\\nBENCH " + JSON.stringify({ rc, sec: (performance.now() - t0) / 1000, rss_mb: process.resourceUsage().maxRSS / 1024 }) + "\\n");
 `,
 );
-function run(pipeline, workers) {
-  const r = spawnSync(process.execPath, [runner, pipeline, String(workers)], { encoding: "utf8", env: { ...process.env, SIFTPACK_LOG: "warn" }, maxBuffer: 1 << 26 });
+function run(pipeline, workers, again = false) {
+  const r = spawnSync(process.execPath, [runner, pipeline, String(workers), ...(again ? ["again"] : [])], { encoding: "utf8", env: { ...process.env, SIFTPACK_LOG: "warn" }, maxBuffer: 1 << 26 });
   const line = r.stderr.split("\n").find((l) => l.startsWith("BENCH "));
   if (!line) throw new Error(`pipeline run failed: ${r.stderr}`);
   const res = JSON.parse(line.slice(6));
   if (res.rc !== 0) throw new Error(`pipeline run exited ${res.rc}: ${r.stderr}`);
+  if (again && !/"up_to_date": true/.test(r.stdout)) throw new Error(`the unchanged rebuild built again: ${r.stderr}`);
   return res;
 }
 const cores = availableParallelism();
@@ -111,6 +112,8 @@ const p1 = run(pipelineFile("full", large, full), 1);
 const fullSplits = Object.keys(JSON.parse(readFileSync(join(work, "out-full", "manifest.json"), "utf8")).splits);
 if (!fullSplits.includes("val") || !fullSplits.includes("test")) throw new Error(`the full pipeline built only ${fullSplits.join(", ")}: the bench needs held-out splits`);
 const pN = run(pipelineFile("full", large, full), cores);
+// The same build again with nothing changed (README, Rebuilding in CI): answered from hashes.
+const same = run(pipelineFile("full", large, full), cores, true);
 const tok1 = run(pipelineFile("tok", large, tokOnly), 1);
 results.pipeline = {
   input_mb: largeInputMb,
@@ -122,6 +125,9 @@ results.pipeline = {
 };
 rows.push([`pipeline, 1 worker (${largeInputMb.toFixed(0)} MB)`, (largeInputMb / p1.sec).toFixed(1), "", `${p1.sec.toFixed(1)} s`]);
 rows.push([`pipeline, ${cores} workers`, (largeInputMb / pN.sec).toFixed(1), "", `${(p1.sec / pN.sec).toFixed(2)}× one worker`]);
+results.pipeline.unchanged_rebuild_s = same.sec;
+results.pipeline.unchanged_rebuild_share = same.sec / pN.sec;
+rows.push(["the same build again, nothing changed", "", "", `${same.sec.toFixed(2)} s = ${((100 * same.sec) / pN.sec).toFixed(1)} % of the build`]);
 rows.push(["tokenize-only pipeline, 1 worker", (largeInputMb / tok1.sec).toFixed(1), "", `full pipeline at ${((100 * tok1.sec) / p1.sec).toFixed(0)} % of it`]);
 // The encoder's own speed in this process (gpt2, above) against the build that does little else.
 const encoderMbS = results.tokenizer.gpt2.ours_mb_s;

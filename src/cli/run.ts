@@ -6,6 +6,7 @@ import { runPipeline } from "../engine/run.js";
 import { compareLocks, lockOf, readLock, writeLock } from "../output/lock.js";
 import { discardStaging } from "../output/output-dir.js";
 import { SiftpackError } from "../errors.js";
+import type { Manifest } from "../output/manifest.js";
 import { progressDisplay } from "./progress.js";
 import { formatSummary } from "./summary.js";
 import type { CacheReport } from "../cache/build-cache.js";
@@ -20,6 +21,12 @@ interface Args {
   cache?: boolean;
   quiet?: boolean;
   keepWork?: boolean;
+  force?: boolean;
+}
+
+function upToDateLine(hashed: number, m: Manifest): string {
+  const files = m.inputs.length;
+  return `up to date: the same ${files} input file${files === 1 ? "" : "s"}${hashed ? ` (${hashed} touched, same bytes)` : ""}, settings and siftpack as this build; nothing rebuilt (--force builds anyway)\n`;
 }
 
 function cacheLine(c: CacheReport): string {
@@ -39,6 +46,7 @@ export const runCommand: CommandModule<object, Args> = {
       .option("lock", { type: "string", describe: "lock file: written after a build when missing (or without --check)" })
       .option("cache", { type: "boolean", default: true, describe: "reuse per-file results of earlier builds (--no-cache recomputes them)" })
       .option("check", { type: "boolean", describe: "with --lock: fail (exit 1) listing what differs from the lock, and leave it unchanged" })
+      .option("force", { type: "boolean", describe: "build even when the earlier build is up to date (same inputs, settings and siftpack)" })
       .option("keep-work", { type: "boolean", describe: "keep the phases' work directory (.<out>.run beside the output) after the build" })
       .option("quiet", { type: "boolean", describe: "warnings and errors only: no progress lines, no closing table, log level warn (unless SIFTPACK_LOG is set)" })
       .check((a) => {
@@ -56,11 +64,12 @@ export const runCommand: CommandModule<object, Args> = {
       pipeline = await checkPipeline(args.file, { outDir: args.out });
       const locked = args.lock ? await readLock(args.lock) : undefined;
       if (args.check && !locked) throw new SiftpackError("SP_LOCK", `--check: no lock file at ${args.lock}; run once with --lock (without --check) to write it`);
-      const { manifest, outDir, cache } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers, keepWork: args.keepWork });
+      // Nothing changed since the last build (inputs, files stages read, settings, versions): it says so and leaves it.
+      const { manifest, outDir, cache, upToDate } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers, keepWork: args.keepWork, skipFresh: !args.force && args.cache !== false });
       display.finish(true);
       finished = true;
-      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, records: manifest.records, splits: manifest.splits, cache }, null, 2) + "\n");
-      else process.stdout.write(formatSummary(displayPath(outDir), manifest) + cacheLine(cache));
+      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, up_to_date: upToDate !== undefined, records: manifest.records, splits: manifest.splits, cache: upToDate ? null : cache }, null, 2) + "\n");
+      else process.stdout.write(formatSummary(displayPath(outDir), manifest) + (upToDate ? upToDateLine(upToDate.hashed, manifest) : cacheLine(cache)));
       if (args.lock) {
         const now = lockOf(manifest);
         if (args.check) {

@@ -12,6 +12,7 @@ import { unitsOf, type Unit } from "./unit-io.js";
 import { checkOutputPlace, prepareStaging } from "../output/output-dir.js";
 import { acquireRunLock } from "../output/run-lock.js";
 import { describeSystemError } from "../errors.js";
+import { checkFreshness, recordFreshness, snapshot } from "../output/freshness.js";
 
 export interface RunOptions {
   log: Logger;
@@ -23,6 +24,8 @@ export interface RunOptions {
   workers?: number;
   /** Called at most five times a second, and at the end of every task, with the phase at work and the phases done. */
   onProgress?: ProgressListener;
+  /** Leave an earlier build that is up to date as it is (README, Rebuilding in CI); `run` asks it unless --force or --no-cache. */
+  skipFresh?: boolean;
 }
 
 export interface RunResult {
@@ -32,6 +35,8 @@ export interface RunResult {
   cache: CacheReport;
   /** Time, bytes and records of every phase. */
   phases: PhaseTiming[];
+  /** Set when the earlier build was up to date and nothing was built (`cache` then reports nothing reused or computed). */
+  upToDate?: { hashed: number };
 }
 
 /**
@@ -46,7 +51,21 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   await checkOutputPlace(p.outDir, p.file, units.map((u) => resolve(p.baseDir, u.path)));
   const lock = await acquireRunLock(p.outDir, opts.log);
   try {
-    return await runLocked(p, opts, units);
+    // Under the lock: no other run is replacing the build being looked at.
+    if (opts.skipFresh) {
+      const verdict = await checkFreshness(p, p.outDir);
+      if (verdict.fresh) {
+        // Touched files had the same bytes: their new times are recorded, so the next check need not hash them.
+        if (verdict.hashed > 0) await recordFreshness(p.outDir, verdict.now);
+        return { outDir: p.outDir, manifest: verdict.manifest, cache: { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 } }, phases: [], upToDate: { hashed: verdict.hashed } };
+      }
+      opts.log.info({ outDir: p.outDir }, `building: ${verdict.why}`);
+    }
+    // Taken before anything is read: a file changed while the build runs has a newer time than recorded.
+    const before = await snapshot(p);
+    const result = await runLocked(p, opts, units);
+    await recordFreshness(result.outDir, before);
+    return result;
   } finally {
     await lock.release();
   }

@@ -230,6 +230,7 @@ export default defineStage({
   // Text is never changed (records are dropped or get meta.contaminated), so cached token ids stay valid.
   options: decontaminateOptions,
   form: (o) => (o.boilerplate_docs === undefined ? unitForm : decontaminateForm),
+  reads: (o, baseDir) => resolveProtected(o.against, baseDir, "decontaminate"),
   async create(o, env) {
     if (o.boilerplate_docs !== undefined) {
       // A protected file that is missing is said before any record is read.

@@ -70,6 +70,11 @@ export interface StageDefinition<O = any> {
    * tokenizer file's content hash): part of the build cache's keys, so a change invalidates them.
    */
   identity?(options: O, baseDir: string): string;
+  /**
+   * Files the stage reads besides the records (protected texts, a tokenizer file), relative to
+   * `baseDir` or absolute: `run` checks them before saying an earlier build is up to date.
+   */
+  reads?(options: O, baseDir: string): Promise<string[]>;
   /** Extra lines for `siftpack plan` (derived settings). */
   explain?(options: O): Record<string, unknown>;
 }

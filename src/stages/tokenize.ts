@@ -154,6 +154,7 @@ export default defineStage({
   form: (o) => (o.train !== undefined ? { kind: "whole" } : { kind: "record", encodes: true }),
   // A tokenizer file is named by a hash of its content, so editing it invalidates cached results.
   identity: (o, baseDir) => (o.train !== undefined ? "trained" : encoderFor(o, baseDir).name),
+  reads: async (o) => (o.tokenizer !== undefined ? [o.tokenizer] : []),
   options: tokenizeOptions as Schema<TokenizeOptions>,
   create(o, env) {
     return createTokenize(o, env).stage;

@@ -476,7 +476,8 @@ const ROWS: Row[] = [
       expect(outputFiles(out)).toEqual(demoFiles);
       return { dir, pipeline: join(dir, "pipelines/demo.yaml"), out, check: () => expect(outputFiles(out)).toEqual(demoFiles) };
     },
-    args: run,
+    // --force: the previous build in place is up to date, and the rerun must resume the killed one, not skip it.
+    args: (c) => [...run(c), "--force"],
     code: 0,
     // The demo's own two bad records are in its quarantine file: the bytes are compared whole instead.
     message: undefined,

@@ -60,8 +60,9 @@ describe("resume after SIGKILL", () => {
 describe("the cache", () => {
   const dir = demoCopy();
   const pipeline = join(dir, "pipelines/demo.yaml");
+  // --force: these tests are about the per-file cache, which a build skipped as up to date never consults.
   const run = () => {
-    const r = siftpack(["run", pipeline, "--json"]);
+    const r = siftpack(["run", pipeline, "--json", "--force"]);
     expect(r.code).toBe(0);
     return JSON.parse(r.stdout).cache;
   };
