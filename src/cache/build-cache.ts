@@ -11,6 +11,26 @@ export interface CacheReport {
   /** Per kind: units (input files) whose cache entry was found or not; for tokens also records. */
   read: { reused: number; computed: number };
   tokens: { reused: number; computed: number; records_reused: number; records_computed: number };
+  /** The cache folder after the build: entries kept, their bytes, and entries removed as unused (by this or another siftpack version). */
+  size: { entries: number; bytes: number; removed: number };
+}
+
+/** An empty report (a build that did not run). */
+export function noCacheReport(): CacheReport {
+  return { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 }, size: { entries: 0, bytes: 0, removed: 0 } };
+}
+
+/** Entries and bytes of the cache folder `dir` as it is now. */
+export async function cacheSize(dir: string): Promise<{ entries: number; bytes: number }> {
+  let entries = 0;
+  let bytes = 0;
+  for (const name of await readdir(dir).catch(() => [] as string[])) {
+    const st = await stat(join(dir, name)).catch(() => undefined);
+    if (!st?.isFile()) continue;
+    entries++;
+    bytes += st.size;
+  }
+  return { entries, bytes };
 }
 
 export function cacheDirOf(outDir: string): string {
@@ -22,7 +42,7 @@ export class BuildCache {
   /** When false, existing entries are ignored (and replaced): `run --no-cache`. */
   private readonly reuse: boolean;
   private readonly used = new Set<string>();
-  readonly report: CacheReport = { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 } };
+  readonly report: CacheReport = noCacheReport();
 
   constructor(dir: string, reuse: boolean) {
     this.dir = dir;
@@ -61,7 +81,11 @@ export class BuildCache {
     return { tmp, commit: () => rename(tmp, p) };
   }
 
-  /** After a successful build: removes entries this build did not use, and stale temporaries. */
+  /**
+   * After a successful build: removes entries this build did not use (older settings or inputs, and
+   * every entry of another siftpack version, whose keys hold the version) and stale temporaries, so
+   * the cache holds what the next unchanged build needs and no more; the report gets its size.
+   */
   async prune(): Promise<number> {
     let removed = 0;
     for (const name of await readdir(this.dir).catch(() => [] as string[])) {
@@ -69,6 +93,7 @@ export class BuildCache {
       await rm(join(this.dir, name), { force: true });
       removed++;
     }
+    this.report.size = { ...(await cacheSize(this.dir)), removed };
     return removed;
   }
 }

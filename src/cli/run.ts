@@ -9,7 +9,7 @@ import { SiftpackError } from "../errors.js";
 import type { Manifest } from "../output/manifest.js";
 import { progressDisplay } from "./progress.js";
 import { formatSummary } from "./summary.js";
-import type { CacheReport } from "../cache/build-cache.js";
+import { cacheDirOf, type CacheReport } from "../cache/build-cache.js";
 
 interface Args {
   file: string;
@@ -29,9 +29,16 @@ function upToDateLine(hashed: number, m: Manifest): string {
   return `up to date: the same ${files} input file${files === 1 ? "" : "s"}${hashed ? ` (${hashed} touched, same bytes)` : ""}, settings and siftpack as this build; nothing rebuilt (--force builds anyway)\n`;
 }
 
-function cacheLine(c: CacheReport): string {
+function cacheLine(c: CacheReport, dir: string): string {
   const t = c.tokens;
-  return `cache: read ${c.read.reused} of ${c.read.reused + c.read.computed} files reused; token ids of ${t.records_reused} of ${t.records_reused + t.records_computed} records reused\n`;
+  return `cache: read ${c.read.reused} of ${c.read.reused + c.read.computed} files reused; token ids of ${t.records_reused} of ${t.records_reused + t.records_computed} records reused; ${cacheSizeText(c, dir)}\n`;
+}
+
+/** "24 entries, 489 kB in build/.demo.cache" (and what pruning removed). */
+function cacheSizeText(c: CacheReport, dir: string): string {
+  const b = c.size.bytes;
+  const size = b >= 1e6 ? `${(b / 1e6).toFixed(1)} MB` : `${Math.round(b / 1e3)} kB`;
+  return `${c.size.entries} entr${c.size.entries === 1 ? "y" : "ies"}, ${size} in ${dir}${c.size.removed ? ` (${c.size.removed} unused removed)` : ""}`;
 }
 
 export const runCommand: CommandModule<object, Args> = {
@@ -68,8 +75,9 @@ export const runCommand: CommandModule<object, Args> = {
       const { manifest, outDir, cache, upToDate } = await runPipeline(pipeline, { log, onProgress: (p) => display.update(p), cache: args.cache, workers: args.workers, keepWork: args.keepWork, skipFresh: !args.force && args.cache !== false });
       display.finish(true);
       finished = true;
-      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, up_to_date: upToDate !== undefined, records: manifest.records, splits: manifest.splits, cache: upToDate ? null : cache }, null, 2) + "\n");
-      else process.stdout.write(formatSummary(displayPath(outDir), manifest) + (upToDate ? upToDateLine(upToDate.hashed, manifest) : cacheLine(cache)));
+      const cacheDir = displayPath(cacheDirOf(outDir));
+      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, up_to_date: upToDate !== undefined, records: manifest.records, splits: manifest.splits, cache: { ...cache, dir: cacheDirOf(outDir) } }, null, 2) + "\n");
+      else process.stdout.write(formatSummary(displayPath(outDir), manifest) + (upToDate ? upToDateLine(upToDate.hashed, manifest) + `cache: ${cacheSizeText(cache, cacheDir)}\n` : cacheLine(cache, cacheDir)));
       if (args.lock) {
         const now = lockOf(manifest);
         if (args.check) {

@@ -1,7 +1,7 @@
 // Runs a loaded pipeline on this machine: the same phases a cluster runs as tasks (src/engine/).
 import { basename, dirname, join, resolve } from "node:path";
 import { rm } from "node:fs/promises";
-import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
+import { BuildCache, cacheDirOf, cacheSize, noCacheReport, type CacheReport } from "../cache/build-cache.js";
 import type { Manifest } from "../output/manifest.js";
 import type { Logger } from "../types.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
@@ -57,7 +57,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
       if (verdict.fresh) {
         // Touched files had the same bytes: their new times are recorded, so the next check need not hash them.
         if (verdict.hashed > 0) await recordFreshness(p.outDir, verdict.now);
-        return { outDir: p.outDir, manifest: verdict.manifest, cache: { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 } }, phases: [], upToDate: { hashed: verdict.hashed } };
+        return { outDir: p.outDir, manifest: verdict.manifest, cache: { ...noCacheReport(), size: { ...(await cacheSize(cacheDirOf(p.outDir))), removed: 0 } }, phases: [], upToDate: { hashed: verdict.hashed } };
       }
       opts.log.info({ outDir: p.outDir }, `building: ${verdict.why}`);
     }

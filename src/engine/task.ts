@@ -206,6 +206,8 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       records_reused: cache.report.tokens.records_reused - before.tokens.records_reused,
       records_computed: cache.report.tokens.records_computed - before.tokens.records_computed,
     },
+    // The folder's size is the run's to say, once it has pruned.
+    size: { entries: 0, bytes: 0, removed: 0 },
   };
   const d: TaskDone = { plan: key, phase: phase.name, index, tasks: phase.tasks, counts, units: unitFacts, files, cache: report, seconds: (Date.now() - started) / 1000 };
   await markDone(work, d);

@@ -2,7 +2,7 @@
 // changes what would be built (an input's bytes, an added input, a setting, a protected file, a
 // missing output file, --force) builds again.
 import { describe, expect, it } from "vitest";
-import { appendFileSync, readFileSync, rmSync, statSync, utimesSync, writeFileSync } from "node:fs";
+import { appendFileSync, readdirSync, readFileSync, rmSync, statSync, utimesSync, writeFileSync } from "node:fs";
 import { join } from "node:path";
 import { demoCopy, siftpack } from "./cli.js";
 
@@ -33,9 +33,24 @@ describe("run when nothing changed", () => {
     expect(UP.exec(built(dir).stdout)?.[2]).toBe("1");
     expect(UP.exec(built(dir).stdout)?.[2]).toBeUndefined();
     expect(manifestTime(dir)).toBe(stamp);
-    // --json says it too.
+    // --json says it too, with the cache folder's size (also on the summary's cache line).
     const json = JSON.parse(built(dir, ["--json"]).stdout);
     expect(json.up_to_date).toBe(true);
+    const cacheDir = join(dir, "build/.demo.cache");
+    const names = readdirSync(cacheDir);
+    expect(json.cache.size).toEqual({ entries: names.length, bytes: names.reduce((a, n) => a + statSync(join(cacheDir, n)).size, 0), removed: 0 });
+    expect(again.stdout).toMatch(new RegExp(`^cache: ${names.length} entries, \\d+ kB in build/\\.demo\\.cache$`, "m"));
+  });
+
+  it("keeps in the cache what the last build used: entries of other settings are removed and counted", () => {
+    const dir = demoCopy();
+    built(dir);
+    writeFileSync(join(dir, "pipelines/demo.yaml"), readFileSync(join(dir, "pipelines/demo.yaml"), "utf8").replace("form: NFKC", "form: NFC"));
+    const json = JSON.parse(built(dir, ["--json"]).stdout);
+    expect(json.up_to_date).toBe(false);
+    // Reading is keyed by the normalization form: every read entry of the NFKC build went.
+    expect(json.cache.size.removed).toBeGreaterThanOrEqual(json.cache.read.computed);
+    expect(json.cache.size.entries).toBe(readdirSync(join(dir, "build/.demo.cache")).length);
   });
 
   it("builds again when an input's bytes, the inputs, a setting, a protected file or an output file changed, or with --force", () => {
