@@ -213,7 +213,8 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   await markDone(work, d);
   meter.taskDone();
   if (opts.finished && index === phase.tasks - 1) meter.finish();
-  log.note({ phase: phase.name, task: index, seconds: d.seconds }, "task done");
+  // Memory as the task ends (this process, its worker threads included): where a build's peak comes from.
+  log.note({ phase: phase.name, task: index, seconds: d.seconds, rss_mb: Math.round(process.memoryUsage.rss() / 2 ** 20), peak_rss_mb: Math.round(process.resourceUsage().maxRSS / 1024) }, "task done");
   return { done: d, manifest };
 }
 
