@@ -44,26 +44,28 @@ export class TextBatch {
   }
 
   add(text: string, train: boolean): void {
-    const need = this.at + 3 * text.length;
-    if (need > this.buf.length) {
-      const bigger = Buffer.allocUnsafeSlow(Math.max(need, 2 * this.buf.length));
-      this.buf.copy(bigger, 0, 0, this.at);
-      this.buf = bigger;
-    }
+    this.room(3 * text.length);
     this.at += this.buf.write(text, this.at, "utf8");
-    this.ends.push(this.at);
-    this.train.push(train ? 1 : 0);
+    this.end(train);
   }
 
+  /** A text given as its UTF-8 bytes. */
   addBytes(utf8: Uint8Array, train: boolean): void {
-    const need = this.at + utf8.length;
-    if (need > this.buf.length) {
-      const bigger = Buffer.allocUnsafeSlow(Math.max(need, 2 * this.buf.length));
-      this.buf.copy(bigger, 0, 0, this.at);
-      this.buf = bigger;
-    }
+    this.room(utf8.length);
     this.buf.set(utf8, this.at);
     this.at += utf8.length;
+    this.end(train);
+  }
+
+  private room(bytes: number): void {
+    const need = this.at + bytes;
+    if (need <= this.buf.length) return;
+    const bigger = Buffer.allocUnsafeSlow(Math.max(need, 2 * this.buf.length));
+    this.buf.copy(bigger, 0, 0, this.at);
+    this.buf = bigger;
+  }
+
+  private end(train: boolean): void {
     this.ends.push(this.at);
     this.train.push(train ? 1 : 0);
   }

@@ -1,5 +1,6 @@
 // Plain-text tables for `run` and `stats`.
 import type { Manifest } from "../output/manifest.js";
+import type { DecontaminationEntry } from "../stages/decontaminate-report.js";
 
 export function table(rows: (string | number)[][]): string {
   const widths = rows[0].map((_, c) => Math.max(...rows.map((r) => String(r[c]).length)));
@@ -67,20 +68,6 @@ export function decontaminationLines(m: Manifest): string {
       out += `WARNING: decontaminate ${verb} more than warn_share ${pct(d.warn_share, 1)} of train. ${d.boilerplate_docs === undefined ? "If the n-grams above are format boilerplate, set boilerplate_docs on the stage" : "If the n-grams above are boilerplate, lower boilerplate_docs"}; if the loss is expected, raise warn_share.\n`;
   }
   return out;
-}
-
-/** The manifest's `decontamination` entry (src/stages/decontaminate-report.ts writes it). */
-interface DecontaminationEntry {
-  file: string;
-  checked: number;
-  dropped?: number;
-  marked?: number;
-  warn_share: number;
-  above_warning: boolean;
-  boilerplate_docs?: number;
-  ignored_ngrams?: number;
-  boilerplate_only?: number;
-  top_ngrams: { ngram: string; records: number; ignored?: boolean }[];
 }
 
 /** Filter rules that could not judge some records (no stop-word list for their language, no spaces): they passed them. */

@@ -52,8 +52,8 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   const lock = await acquireRunLock(p.outDir, opts.log);
   try {
     // Under the lock: no other run is replacing the build being looked at.
-    if (opts.skipFresh) {
-      const verdict = await checkFreshness(p, p.outDir);
+    const verdict = opts.skipFresh ? await checkFreshness(p, p.outDir) : undefined;
+    if (verdict) {
       if (verdict.fresh) {
         // Touched files had the same bytes: their new times are recorded, so the next check need not hash them.
         if (verdict.hashed > 0) await recordFreshness(p.outDir, verdict.now);
@@ -62,7 +62,7 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
       opts.log.info({ outDir: p.outDir }, `building: ${verdict.why}`);
     }
     // Taken before anything is read: a file changed while the build runs has a newer time than recorded.
-    const before = await snapshot(p);
+    const before = verdict?.now ?? (await snapshot(p));
     const result = await runLocked(p, opts, units);
     await recordFreshness(result.outDir, before);
     return result;

@@ -50,8 +50,11 @@ export async function recordFreshness(outDir: string, f: Freshness): Promise<voi
   await writeFileAtomic(path, [Buffer.from(JSON.stringify({ ...info, freshness: f }, null, 2) + "\n")]);
 }
 
-/** `now`: the inputs as they are (to record when `hashed` > 0, so touched files are not hashed again). */
-export type Verdict = { fresh: true; manifest: Manifest; hashed: number; now: Freshness } | { fresh: false; why: string };
+/**
+ * `now`: the inputs as they are, when the check got that far (recorded when `hashed` > 0, so touched
+ * files are not hashed again; or taken as the snapshot of the build that follows).
+ */
+export type Verdict = { fresh: true; manifest: Manifest; hashed: number; now: Freshness } | { fresh: false; why: string; now?: Freshness };
 
 /**
  * Whether the build in `outDir` is what `p` would build now. `hashed`: how many input files had to be
@@ -83,20 +86,20 @@ export async function checkFreshness(p: LoadedPipeline, outDir: string): Promise
   const key = (i: { source: string; path: string }) => `${i.source}\u0000${i.path}`;
   const listed = new Map(manifest.inputs.map((i) => [key(i), i]));
   const seen = new Map(recorded.inputs.map((i) => [key(i), i]));
-  if (now.inputs.length !== listed.size) return { fresh: false, why: `${now.inputs.length} input files now, ${listed.size} then` };
+  if (now.inputs.length !== listed.size) return { fresh: false, why: `${now.inputs.length} input files now, ${listed.size} then`, now };
   let hashed = 0;
   for (const i of now.inputs) {
     const m = listed.get(key(i));
-    if (!m) return { fresh: false, why: `input added: ${i.path}` };
-    if (m.size !== i.size) return { fresh: false, why: `input changed: ${i.path} (size)` };
+    if (!m) return { fresh: false, why: `input added: ${i.path}`, now };
+    if (m.size !== i.size) return { fresh: false, why: `input changed: ${i.path} (size)`, now };
     const r = seen.get(key(i));
     if (r && r.size === i.size && r.mtime_ms === i.mtime_ms) continue;
     // Touched (or copied) but maybe not changed: its bytes decide.
     hashed++;
-    if ((await hashFile(join(p.baseDir, i.path))).xxh64 !== m.xxh64) return { fresh: false, why: `input changed: ${i.path}` };
+    if ((await hashFile(join(p.baseDir, i.path))).xxh64 !== m.xxh64) return { fresh: false, why: `input changed: ${i.path}`, now };
   }
   const then = new Map(recorded.reads.map((r) => [r.path, r.xxh64]));
-  if (now.reads.length !== then.size) return { fresh: false, why: "the files stages read changed" };
-  for (const r of now.reads) if (then.get(r.path) !== r.xxh64) return { fresh: false, why: `${r.path} changed` };
+  if (now.reads.length !== then.size) return { fresh: false, why: "the files stages read changed", now };
+  for (const r of now.reads) if (then.get(r.path) !== r.xxh64) return { fresh: false, why: `${r.path} changed`, now };
   return { fresh: true, manifest, hashed, now };
 }

@@ -3,22 +3,7 @@
 import type { Manifest } from "../output/manifest.js";
 import { esc, fig, note, pct, table } from "./html.js";
 import { hbars } from "./hbars.js";
-
-interface Entry {
-  file: string;
-  action: "drop" | "mark";
-  ngram: number;
-  checked: number;
-  dropped?: number;
-  marked?: number;
-  share: number;
-  warn_share: number;
-  above_warning: boolean;
-  boilerplate_docs?: number;
-  ignored_ngrams?: number;
-  boilerplate_only?: number;
-  top_ngrams: { ngram: string; records: number; ignored?: boolean }[];
-}
+import type { DecontaminationEntry as Entry } from "../stages/decontaminate-report.js";
 
 /** `quoteText` false: the n-grams are words of the input, so they are left out (report --no-excerpts). */
 export function decontaminationSection(m: Manifest, quoteText = true): string {

@@ -51,8 +51,25 @@ export function byFrequency(a: NgramCount, b: NgramCount): number {
 /** True when the share removed is above the warning threshold. */
 export const aboveWarning = (r: Pick<DecontaminateReport, "share" | "warn_share">) => r.share > r.warn_share;
 
+/** The manifest's `decontamination` entry of one decontaminate stage (read by the run summary and the report). */
+export interface DecontaminationEntry {
+  file: string;
+  action: "drop" | "mark";
+  ngram: number;
+  checked: number;
+  dropped?: number;
+  marked?: number;
+  share: number;
+  warn_share: number;
+  above_warning: boolean;
+  boilerplate_docs?: number;
+  ignored_ngrams?: number;
+  boilerplate_only?: number;
+  top_ngrams: { ngram: string; records: number; ignored?: boolean }[];
+}
+
 /** The manifest's entry for one decontaminate stage (its report file named). */
-export function manifestEntry(file: string, r: DecontaminateReport): Record<string, unknown> {
+export function manifestEntry(file: string, r: DecontaminateReport): DecontaminationEntry {
   return {
     file,
     action: r.action,
@@ -68,7 +85,7 @@ export function manifestEntry(file: string, r: DecontaminateReport): Record<stri
 }
 
 /** The `decontamination` entries of a build directory's decontaminate*.json files, in the order listed; undefined without any. */
-export function decontaminationOf(dir: string, files: readonly string[]): Record<string, unknown>[] | undefined {
+export function decontaminationOf(dir: string, files: readonly string[]): DecontaminationEntry[] | undefined {
   const entries = files.filter((f) => /^decontaminate(-\d+)?\.json$/.test(f) && existsSync(join(dir, f))).map((f) => manifestEntry(f, JSON.parse(readFileSync(join(dir, f), "utf8")) as DecontaminateReport));
   return entries.length ? entries : undefined;
 }

@@ -4,17 +4,10 @@ import { beforeAll, describe, expect, it } from "vitest";
 import { copyFileSync, readFileSync, renameSync, writeFileSync } from "node:fs";
 import { join } from "node:path";
 import { get_encoding } from "tiktoken";
-import { ROOT, siftpack, tempDir } from "./cli.js";
+import { ROOT, siftpack, tempDir, demoVariant } from "./cli.js";
 
 /** The demo pipeline (inputs by absolute path) with another tokenize line, in its own folder. */
-function variant(dir: string, tokenizeLine: string): string {
-  const text = readFileSync(join(ROOT, "pipelines/demo.yaml"), "utf8")
-    .replaceAll("../sample-data/", join(ROOT, "sample-data") + "/")
-    .replace(/^ {2}- tokenize: .*$/m, `  - tokenize: ${tokenizeLine}`);
-  expect(text).toContain(tokenizeLine);
-  writeFileSync(join(dir, "p.yaml"), text);
-  return join(dir, "p.yaml");
-}
+const variant = (dir: string, tokenizeLine: string) => demoVariant(dir, "tokenize", tokenizeLine);
 
 function build(dir: string, tokenizeLine: string): string {
   const out = join(dir, "out");

@@ -58,6 +58,19 @@ export function demoCopy(order: "forward" | "reverse" = "forward"): string {
   return dir;
 }
 
+/**
+ * The demo pipeline with the line of stage `stage` replaced by `- stage: line`, its inputs pointed at
+ * the repository's sample data by absolute path, written as dir/p.yaml; returns its path.
+ */
+export function demoVariant(dir: string, stage: string, line: string): string {
+  const text = readFileSync(join(ROOT, "pipelines/demo.yaml"), "utf8")
+    .replaceAll("../sample-data/", join(ROOT, "sample-data") + "/")
+    .replace(new RegExp(`^ {2}- ${stage}: .*$`, "m"), `  - ${stage}: ${line}`);
+  if (!text.includes(line)) throw new Error(`the demo pipeline has no ${stage} line to replace`);
+  writeFileSync(join(dir, "p.yaml"), text);
+  return join(dir, "p.yaml");
+}
+
 /** Every file of a build (but build-info.json, which holds times and paths), as base64 by path. */
 export function outputFiles(dir: string): Record<string, string> {
   const out: Record<string, string> = {};

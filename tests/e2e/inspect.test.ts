@@ -3,7 +3,7 @@ import { beforeAll, describe, expect, it } from "vitest";
 import { readFileSync, writeFileSync } from "node:fs";
 import { join } from "node:path";
 import { get_encoding } from "tiktoken";
-import { python, ROOT, siftpack, tempDir } from "./cli.js";
+import { python, ROOT, siftpack, tempDir, demoVariant } from "./cli.js";
 import type { Manifest } from "../../src/output/manifest.js";
 
 let demo: string;
@@ -11,16 +11,8 @@ let bestFit: string;
 let single: string;
 const manifests: Record<string, Manifest> = {};
 
-/** The demo pipeline with another pack line, its inputs pointed at the repository's sample data by absolute path. */
-function variant(name: string, packLine: string): string {
-  const dir = tempDir(name);
-  const text = readFileSync(join(ROOT, "pipelines/demo.yaml"), "utf8")
-    .replaceAll("../sample-data/", join(ROOT, "sample-data") + "/")
-    .replace(/^ {2}- pack: .*$/m, `  - pack: ${packLine}`);
-  expect(text).toContain(packLine);
-  writeFileSync(join(dir, "p.yaml"), text);
-  return join(dir, "p.yaml");
-}
+/** The demo pipeline with another pack line, in a folder of its own. */
+const variant = (name: string, packLine: string) => demoVariant(tempDir(name), "pack", packLine);
 
 function build(pipeline: string, name: string): string {
   const out = join(tempDir(name), "out");
