@@ -90,11 +90,12 @@ export async function assemblePhase(env: TaskEnv, { packPhase, groupCount, analy
   for (let g = 0; g < groupCount; g++) groups.push(JSON.parse(await readFile(join(groupDir(work, packPhase, g), "group.json"), "utf8")) as GroupResult);
   const c = mergeCounts(groups.map((r) => r.counts));
   if (c.read > 0 && c.quarantined / c.read > config.max_bad_fraction) {
-    // The quarantine lines, joined, so the message can point at them.
-    await joinFiles(groups.map((_, g) => join(groupDir(work, packPhase, g), "quarantine.jsonl")), join(staging, "quarantine.jsonl"));
+    // The quarantine lines, joined beside the output (a failed run removes its .partial folder), so the message can point at them.
+    const rejected = rejectedQuarantine(p.outDir);
+    await joinFiles(groups.map((_, g) => join(groupDir(work, packPhase, g), "quarantine.jsonl")), rejected);
     throw new SiftpackError(
       "SP_BAD_FRACTION",
-      `${c.quarantined} of ${c.read} input records (${((100 * c.quarantined) / c.read).toFixed(1)} %) were quarantined, more than max_bad_fraction ${config.max_bad_fraction}; see ${join(staging, "quarantine.jsonl")}`,
+      `${c.quarantined} of ${c.read} input records (${((100 * c.quarantined) / c.read).toFixed(1)} %) were quarantined, more than max_bad_fraction ${config.max_bad_fraction}; see ${rejected}`,
     );
   }
   const splitStats = mergeSplits(groups.map((r) => r.splits), packOpts.length);
@@ -147,6 +148,8 @@ export async function assemblePhase(env: TaskEnv, { packPhase, groupCount, analy
   });
   await writeBuildInfo(staging, p, startedAt);
   await publishStaging(staging, p.outDir);
+  // The quarantine list a refused build left beside the output is stale once a build is published.
+  await rm(rejectedQuarantine(p.outDir), { force: true });
   env.log.info({ outDir: p.outDir, records: c.read, kept: c.kept }, "build complete");
   return manifest;
 }
@@ -227,4 +230,9 @@ function mergeSplits(list: Record<string, SplitStats>[], length: number): Record
     m.padding_fraction = paddingFraction(m.padding_tokens, m.blocks, length);
   }
   return out;
+}
+
+/** Where a build refused for too many quarantined records leaves their list: beside the output, `<out>.quarantine.jsonl`. */
+function rejectedQuarantine(outDir: string): string {
+  return `${outDir}.quarantine.jsonl`;
 }

@@ -83,6 +83,9 @@ describe("errors that stop the run", () => {
     expect(r.code).toBe(1);
     expect(r.stderr).toMatch(/^siftpack: error: 5 of 19 input records \(26\.3 %\) were quarantined, more than max_bad_fraction 0\.1; see .*quarantine\.jsonl\n$/);
     expect(existsSync(join(dir, "out/manifest.json"))).toBe(false);
+    // The file it names is there after the run (the run's .partial folder is not), one line per bad record.
+    const named = /see (.*quarantine\.jsonl)\n$/.exec(r.stderr)![1];
+    expect(readFileSync(named, "utf8").trim().split("\n")).toHaveLength(5);
   });
 
   it("a missing input: one line, exit 1", () => {
