@@ -3,7 +3,7 @@
 // deleting the first one's staging and work directories under it; the lock of a run that died
 // (its pid gone on this host) is taken over.
 import { hostname } from "node:os";
-import { mkdir, open, readFile, rename, stat, unlink } from "node:fs/promises";
+import { link, mkdir, readFile, rename, stat, unlink, writeFile } from "node:fs/promises";
 import { basename, dirname, join } from "node:path";
 import { setTimeout as sleep } from "node:timers/promises";
 import { SiftpackError, describeSystemError } from "../errors.js";
@@ -39,24 +39,23 @@ function parseHolder(text: string): Holder | undefined {
 }
 
 
-/** Creates the lock file holding `me`; false when it exists already. */
+/**
+ * Creates the lock file holding `me`; false when it exists already. Written under a name of its own
+ * first and then linked into place (a link fails when the name exists), so the lock never exists
+ * empty: a run stopped between creating and writing it cannot be taken for one that crashed there.
+ */
 async function create(path: string, me: Holder): Promise<boolean> {
-  let fh;
+  const tmp = `${path}.${process.pid}.tmp`;
+  await writeFile(tmp, JSON.stringify(me) + "\n");
   try {
-    fh = await open(path, "wx");
+    await link(tmp, path);
+    return true;
   } catch (err) {
     if ((err as NodeJS.ErrnoException).code === "EEXIST") return false;
     throw err;
+  } finally {
+    await unlink(tmp).catch(() => {});
   }
-  try {
-    await fh.writeFile(JSON.stringify(me) + "\n");
-  } catch (err) {
-    await fh.close().catch(() => {});
-    await unlink(path).catch(() => {});
-    throw err;
-  }
-  await fh.close();
-  return true;
 }
 
 /**
