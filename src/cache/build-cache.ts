@@ -2,6 +2,7 @@
 // everything they depend on, so a rerun (after a crash or a settings change) redoes only what changed.
 import { mkdir, readdir, rename, rm, stat } from "node:fs/promises";
 import { basename, dirname, join } from "node:path";
+import { threadId } from "node:worker_threads";
 import { canonicalJson } from "../lib/canonical-json.js";
 import { hex64, xxh64String } from "../lib/hash.js";
 
@@ -77,8 +78,25 @@ export class BuildCache {
   pending(kind: UnitKind, key: string, ext: string): { tmp: string; commit: () => Promise<void> } {
     const p = this.path(kind, key, ext);
     this.used.add(basename(p));
-    const tmp = `${p}.${process.pid}.tmp`;
+    // A name of its own per thread too: a local run's tasks run side by side in threads, and two units of the same bytes share a key.
+    const tmp = `${p}.${process.pid}-${threadId}.tmp`;
     return { tmp, commit: () => rename(tmp, p) };
+  }
+
+  /** The entries used since the last call (a task thread hands them to the run, which prunes). */
+  takeUsed(): string[] {
+    const names = [...this.used];
+    this.used.clear();
+    return names;
+  }
+
+  /** What a task run elsewhere (a task thread, with a cache object of its own) used and counted. */
+  absorb(used: string[], report: CacheReport | undefined): void {
+    for (const name of used) this.used.add(name);
+    if (!report) return;
+    this.report.read.reused += report.read.reused;
+    this.report.read.computed += report.read.computed;
+    for (const k of ["reused", "computed", "records_reused", "records_computed"] as const) this.report.tokens[k] += report.tokens[k];
   }
 
   /**

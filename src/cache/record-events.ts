@@ -253,6 +253,8 @@ export interface ReadOptions {
   /** false: "" with `textBytes`; "utf8": "" with `textBytes` and the bytes in `utf8` (a copy). */
   text?: boolean | "utf8";
   records?: boolean;
+  /** Records of rows (`seq`) below this are passed over without being decoded. */
+  fromSeq?: number;
 }
 
 function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
@@ -316,6 +318,7 @@ export function* decodeFrames(bytes: Uint8Array): Generator<UnitEvent> {
 /** The events of a unit file, read in large chunks; stops after the end frame. */
 export async function* readEvents(path: string, o?: ReadOptions): AsyncGenerator<UnitEvent> {
   const records = o?.records !== false;
+  const fromSeq = o?.fromSeq;
   const fh = await open(path, "r");
   try {
     let buf = Buffer.allocUnsafe(1 << 22);
@@ -327,11 +330,15 @@ export async function* readEvents(path: string, o?: ReadOptions): AsyncGenerator
       while (at + 4 <= end) {
         const n = buf.readUInt32LE(at);
         if (at + 4 + n > end) break;
-        if (records || buf[at + 4] !== REC) {
-          const e = decodeBody(buf, at + 4, o);
-          yield e;
-          if (e.k === "end") return;
+        const rec = buf[at + 4] === REC;
+        // A record frame's row number follows its kind and flags bytes.
+        if (rec && (!records || (fromSeq !== undefined && buf.readDoubleLE(at + 6) < fromSeq))) {
+          at += 4 + n;
+          continue;
         }
+        const e = decodeBody(buf, at + 4, o);
+        yield e;
+        if (e.k === "end") return;
         at += 4 + n;
       }
       if (bytesRead === 0) {

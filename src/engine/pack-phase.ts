@@ -75,6 +75,9 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
   const feeds: Awaited<ReturnType<typeof collectUnit>>[] = [];
   for (const a of o.analyses) feeds.push(await collectUnit(a.dirs, a.collectors, group.g));
   const k = env.phase.index;
+  // A share of a large file's rows: the rest of its units' rows are other groups'.
+  const span = group.rows;
+  const mine = (i: number) => !span || (i >= span.from && i < span.to);
   try {
     for (const u of group.units) {
       const fix = unitFixes(env)[u];
@@ -82,25 +85,26 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       const fates: Fate[] = [];
       let truncated: TruncatedFile | undefined;
       for await (const e of readEvents(unitsFile(work, "read", u), { records: false })) {
-        if (e.k === "end" && e.truncated) {
+        if (e.k === "end" && e.truncated && (!span || span.last)) {
           // Rows read count the whole file's: a later part of a file follows its earlier parts' rows.
           const unit = env.units[u];
           truncated = { source: unit.source.name, file: unit.path, ...e.truncated, rows_read: e.truncated.rows_read + fix.rows };
-        } else if (e.k === "bad") fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
-        else if (e.k === "drop") {
+        } else if (e.k === "bad") {
+          if (mine(e.i + fix.rows)) fates.push({ i: e.i + fix.rows, bad: { ...e.entry, line: e.entry.line + fix.lines } });
+        } else if (e.k === "drop") {
           const d = dropOf(e);
           fixFromRead(env, u, d.r);
-          fates.push({ i: d.r.seq, drop: d });
+          if (mine(d.r.seq)) fates.push({ i: d.r.seq, drop: d });
         }
       }
       for (const ph of plan.phases.slice(1, k)) {
         if (ph.does.kind !== "pass" && ph.does.kind !== "whole") continue;
-        for await (const e of readEvents(dropsFile(work, ph.name, u), { records: false })) if (e.k === "drop") fates.push({ i: e.i, drop: dropOf(e) });
+        for await (const e of readEvents(dropsFile(work, ph.name, u), { records: false })) if (e.k === "drop" && mine(e.i)) fates.push({ i: e.i, drop: dropOf(e) });
       }
       // Drops made while reading (decisions applied now), in row order as the records come.
       const late: Fate[] = [];
       const ctx: StageContext = { seed: config.seed, log: env.log, workDir: dir, addOutputFile: () => {}, count: o.count, drop: (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }) };
-      const records = recordsBefore(env, k, u, ctx, { text: textUse(o.analyses.map((a) => a.steps.usesText)) });
+      const records = recordsBefore(env, k, u, ctx, { text: textUse(o.analyses.map((a) => a.steps.usesText)), ...(span ? { rows: span } : {}) });
       const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
         if ("rec" in f || f.drop) {
           const r = "rec" in f ? f.rec : f.drop!.r;

@@ -137,3 +137,66 @@ export class PhaseMeter {
     this.listener({ current: this.current(), finished: [...this.finished] });
   }
 }
+
+/**
+ * A phase as a local run sees it: its tasks report their own progress (each its own PhaseMeter,
+ * in this thread or a task thread), summed here; the phase's line in the closing table once all
+ * are done.
+ */
+export class PhaseTally {
+  private readonly byTask = new Map<number, PhaseProgress>();
+  private tasksDone = 0;
+  private last = 0;
+  private readonly started = Date.now();
+
+  constructor(
+    private readonly info: { phase: string; index: number; phases: number; tasks: number; bytesTotal: number },
+    private readonly finished: PhaseTiming[],
+    private readonly listener: ProgressListener | undefined,
+  ) {
+    this.report(true);
+  }
+
+  /** Task `i`'s latest progress. */
+  task(i: number, current: PhaseProgress): void {
+    this.byTask.set(i, current);
+    this.report(false);
+  }
+
+  taskDone(): void {
+    this.tasksDone++;
+    this.report(true);
+  }
+
+  finish(): PhaseTiming {
+    let bytes = 0;
+    let records = 0;
+    for (const c of this.byTask.values()) {
+      bytes += c.bytesDone;
+      records += c.records;
+    }
+    const t: PhaseTiming = { phase: this.info.phase, tasks: this.info.tasks, seconds: (Date.now() - this.started) / 1000, bytes, records };
+    this.finished.push(t);
+    this.report(true);
+    return t;
+  }
+
+  private current(): PhaseProgress {
+    let bytesDone = 0;
+    let records = 0;
+    for (const c of this.byTask.values()) {
+      bytesDone += c.bytesDone;
+      records += c.records;
+    }
+    const { phase, index, phases, tasks, bytesTotal } = this.info;
+    return { phase, index, phases, tasks, tasksDone: this.tasksDone, bytesTotal, bytesDone: Math.min(bytesTotal, bytesDone), records };
+  }
+
+  private report(force: boolean): void {
+    if (!this.listener) return;
+    const now = Date.now();
+    if (!force && now - this.last < REPORT_MS) return;
+    this.last = now;
+    this.listener({ current: this.current(), finished: [...this.finished] });
+  }
+}

@@ -5,10 +5,13 @@ import { BuildCache, cacheDirOf, cacheSize, noCacheReport, type CacheReport } fr
 import type { Manifest } from "../output/manifest.js";
 import type { Logger } from "../types.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
-import type { PhaseTiming, ProgressListener } from "./progress.js";
+import { PhaseTally, type PhaseTiming, type ProgressListener } from "./progress.js";
 import { planPhases } from "./plan.js";
-import { runTask } from "./task.js";
-import { unitsOf, type Unit } from "./unit-io.js";
+import { phaseLayout, runTask } from "./task.js";
+import { unitBytes, unitsOf, type Unit } from "./unit-io.js";
+import { TaskThreads } from "./task-threads.js";
+import { compiledModule } from "../parallel/pool.js";
+import { availableParallelism } from "node:os";
 import { checkOutputPlace, prepareStaging } from "../output/output-dir.js";
 import { acquireRunLock } from "../output/run-lock.js";
 import { describeSystemError } from "../errors.js";
@@ -40,8 +43,9 @@ export interface RunResult {
 }
 
 /**
- * Builds on this machine by running the task plan's phases in order, one task each (the result
- * does not depend on the number of tasks), every task using the worker pool. The work directory
+ * Builds on this machine by running the task plan's phases in order (the result does not depend on
+ * the number of tasks): on a small input or one worker, one task per phase using the worker
+ * threads for its per-record stages; else two tasks per worker, run side by side in task threads. The work directory
  * beside the output is removed once the build is published. One run at a time per output: a
  * second one refuses while the first holds the lock beside the output.
  */
@@ -71,26 +75,52 @@ export async function runPipeline(p: LoadedPipeline, opts: RunOptions): Promise<
   }
 }
 
+/** Input bytes from which a run with two or more workers runs a phase's tasks side by side (SIFTPACK_TASK_THREADS_FROM_MB: for tests). */
+function sideBySideFrom(): number {
+  const mb = Number(process.env.SIFTPACK_TASK_THREADS_FROM_MB);
+  return (Number.isFinite(mb) && mb >= 0 ? mb : 16) * 1e6;
+}
+
 async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Promise<RunResult> {
-  const plan = planPhases(p, 1);
+  const threads = Math.max(1, opts.workers ?? availableParallelism());
+  const module = compiledModule("./task-thread.js", import.meta.url);
+  // Below a few megabytes a thread's start costs more than it saves; then one task per phase, as a cluster's smallest plan.
+  const sideBySide = threads >= 2 && module !== undefined && units.reduce((a, u) => a + unitBytes(u), 0) >= sideBySideFrom();
+  // Two tasks per thread: a phase's shares differ in size, and a thread that finishes early takes the next.
+  const plan = planPhases(p, sideBySide ? 2 * threads : 1);
   plan.workDir = join(dirname(p.outDir), `.${basename(p.outDir)}.run`);
   // The output's checks first (a path under a file, a directory that is no build): clear one-line errors.
   await prepareStaging(p.outDir);
   await rm(plan.workDir, { recursive: true, force: true });
   const cache = new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
+  const pool = sideBySide ? new TaskThreads(module!, { p, units, tasks: plan.tasks, workDir: plan.workDir, cache: opts.cache ?? true }, threads, opts.log) : undefined;
   const finished: PhaseTiming[] = [];
   let manifest: Manifest | undefined;
   let failed = true;
   try {
     for (const phase of plan.phases) {
-      for (let i = 0; i < phase.tasks; i++) {
-        const r = await runTask(p, phase.name, i, { log: opts.log, workers: opts.workers, plan, buildCache: cache, onProgress: opts.onProgress, finished, units });
+      const layout = await phaseLayout(p, plan, units, phase.name);
+      const tally = new PhaseTally({ phase: phase.name, index: phase.index, phases: plan.phases.length, tasks: phase.tasks, bytesTotal: layout.bytes.reduce((a, b) => a + b, 0) }, finished, opts.onProgress);
+      const here = async (i: number, workers: number) => {
+        const r = await runTask(p, phase.name, i, { log: opts.log, workers, plan, buildCache: cache, onProgress: (b) => tally.task(i, b.current), units });
         manifest = r.manifest ?? manifest;
+        tally.taskDone();
+      };
+      const busy = layout.shares.flatMap((s, i) => (s.to > s.from ? [i] : []));
+      if (!pool || busy.length < 2) {
+        // One task with work (or none): it has every worker thread for its per-record stages.
+        for (let i = 0; i < phase.tasks; i++) await here(i, threads);
+      } else {
+        // Tasks without a share only leave their markers.
+        for (let i = 0; i < phase.tasks; i++) if (!busy.includes(i)) await here(i, 1);
+        await sideBySideTasks(pool, phase.name, busy, threads, cache, tally);
       }
+      tally.finish();
     }
     failed = false;
   } finally {
+    await pool?.close();
     // Failed or not, the phases' files go (the error was reported; the cache keeps what was read).
     // A folder that cannot be removed must not hide the build's own error; the next run removes it.
     if (!opts.keepWork)
@@ -103,4 +133,31 @@ async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Pr
   // The summary says it on stdout; here for those who read the debug log.
   opts.log.debug({ cache: cache.report }, "cache");
   return { outDir: p.outDir, manifest: manifest!, cache: cache.report, phases: finished };
+}
+
+/**
+ * Runs tasks `busy` of a phase in the task threads, as many at a time as there are threads, each
+ * taking the next when it ends. After a failure no further task starts; the error of the lowest
+ * task index is thrown once the running ones have ended, so a build with bad input reports the
+ * same error however the tasks were timed.
+ */
+async function sideBySideTasks(pool: TaskThreads, phase: string, busy: number[], threads: number, cache: BuildCache, tally: PhaseTally): Promise<void> {
+  const queue = [...busy];
+  const lanes = Math.min(pool.size, busy.length);
+  const workers = Math.max(1, Math.floor(threads / lanes));
+  const errors = new Map<number, unknown>();
+  const lane = async () => {
+    for (let i = queue.shift(); i !== undefined && errors.size === 0; i = queue.shift()) {
+      try {
+        const r = await pool.run({ phase, index: i, workers }, (c) => tally.task(i!, c));
+        cache.absorb(r.used, r.done.cache);
+        tally.taskDone();
+      } catch (err) {
+        cache.absorb((err as { used?: string[] }).used ?? [], undefined);
+        errors.set(i, err);
+      }
+    }
+  };
+  await Promise.all(Array.from({ length: lanes }, lane));
+  if (errors.size > 0) throw errors.get(Math.min(...errors.keys()));
 }

@@ -19,7 +19,7 @@ import { readUnit } from "./read-phase.js";
 import { PassStages } from "./pass-phase.js";
 import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
-import { PhaseMeter, type PhaseTiming, type ProgressListener } from "./progress.js";
+import { PhaseMeter, type ProgressListener } from "./progress.js";
 import { packGroup, analysisDirs } from "./pack-phase.js";
 import { IDS_CHECK } from "./plan.js";
 import { sourcesToCheck, uniqueIdsForm } from "./unique-ids.js";
@@ -40,11 +40,6 @@ export interface TaskOptions {
   plan?: PhasePlan;
   /** Progress of the task's phase (at most five reports a second, and at its end). */
   onProgress?: ProgressListener;
-  /**
-   * Set by a local run, which runs every task of a phase in this process: the phases finished so
-   * far (the task that ends a phase adds its timing), and progress counts the phase's tasks.
-   */
-  finished?: PhaseTiming[];
   /** Shared across the tasks of one local run, so its report covers them all. */
   buildCache?: BuildCache;
   /** The units of work, when the caller has listed them already (a local run lists them once). */
@@ -109,11 +104,10 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const log = teeLogger(opts.log, logPath(work, phase.name, index), phase.name, index);
   const threads = Math.max(1, opts.workers ?? availableParallelism());
   const out = outputSettings(p.config.stages, p.baseDir);
-  const groups = packGroups(units, out.pack.group_mb * 1e6);
-  const items = phase.perUnit ? units.length : phase.does.kind === "pack" ? groups.length : phase.tasks === 1 ? 1 : plan.tasks;
-  const share = shareOf(index, phase.tasks, items);
+  const groups = groupsOf(p, units, done.get(plan.phases[0].name));
+  const share = shareOf(index, phase.tasks, itemsOf(plan, k, units, groups));
   const bytesTotal = await phaseBytes(plan, units, groups, k, share);
-  const meter = new PhaseMeter({ phase: phase.name, index: k, phases: plan.phases.length, tasks: opts.finished ? phase.tasks : 1, bytesTotal }, opts.finished ?? [], opts.onProgress);
+  const meter = new PhaseMeter({ phase: phase.name, index: k, phases: plan.phases.length, tasks: 1, bytesTotal }, [], opts.onProgress);
   const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads, meter };
   // The analyses' files: collected per group by the pack phase, joined per partition by the analysis phase.
   const analysisFiles = () =>
@@ -212,10 +206,40 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const d: TaskDone = { plan: key, phase: phase.name, index, tasks: phase.tasks, counts, units: unitFacts, files, cache: report, seconds: (Date.now() - started) / 1000 };
   await markDone(work, d);
   meter.taskDone();
-  if (opts.finished && index === phase.tasks - 1) meter.finish();
   // Memory as the task ends (this process, its worker threads included): where a build's peak comes from.
   log.note({ phase: phase.name, task: index, seconds: d.seconds, rss_mb: Math.round(process.memoryUsage.rss() / 2 ** 20), peak_rss_mb: Math.round(process.resourceUsage().maxRSS / 1024) }, "task done");
   return { done: d, manifest };
+}
+
+/** The packing groups; large files are cut by rows once the read phase's row counts (`readDone`) are known. */
+function groupsOf(p: LoadedPipeline, units: Unit[], readDone: TaskDone[] | undefined): PackGroup[] {
+  const rows = new Map<number, number>();
+  for (const d of readDone ?? []) for (const [u, f] of Object.entries(d.units)) rows.set(Number(u), f.rows ?? 0);
+  return packGroups(units, outputSettings(p.config.stages, p.baseDir).pack.group_mb * 1e6, readDone ? (u) => rows.get(u) ?? 0 : undefined);
+}
+
+/** What phase k's tasks share: units, packing groups, key partitions (the plan's task count), or one item. */
+function itemsOf(plan: PhasePlan, k: number, units: Unit[], groups: PackGroup[]): number {
+  const phase = plan.phases[k];
+  return phase.perUnit ? units.length : phase.does.kind === "pack" ? groups.length : phase.tasks === 1 ? 1 : plan.tasks;
+}
+
+/** A phase's tasks before they run: each one's share of the phase's items and the bytes it will read. */
+export interface PhaseLayout {
+  shares: { from: number; to: number }[];
+  bytes: number[];
+}
+
+/** The layout of phase `name`, once the phases before it are done (a local run asks it to spread the tasks over threads). */
+export async function phaseLayout(p: LoadedPipeline, plan: PhasePlan, units: Unit[], name: string): Promise<PhaseLayout> {
+  const k = phaseIndex(plan, name);
+  const read = k > 0 ? await requireDone(plan, planKey(p, units, plan), plan.phases[0], name) : undefined;
+  const groups = groupsOf(p, units, read);
+  const items = itemsOf(plan, k, units, groups);
+  const shares = Array.from({ length: plan.phases[k].tasks }, (_, i) => shareOf(i, plan.phases[k].tasks, items));
+  const bytes: number[] = [];
+  for (const share of shares) bytes.push(await phaseBytes(plan, units, groups, k, share));
+  return { shares, bytes };
 }
 
 const packPhaseOf = (plan: PhasePlan) => plan.phases.find((ph) => ph.does.kind === "pack")!.name;

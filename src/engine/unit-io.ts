@@ -203,9 +203,10 @@ function applierOf(env: TaskEnv, k: number, count: StageContext["count"]): Promi
  * weights of 0 applied (they need the final id), then the decisions of the keyed steps since the
  * last unit files, in pipeline order; drops are reported through `ctx.drop`. `text: false`: the
  * caller does not read the records' text, which is then left out where nothing else needs it;
- * `text: "utf8"`: the caller reads only its UTF-8 bytes (DocRecord.utf8), likewise.
+ * `text: "utf8"`: the caller reads only its UTF-8 bytes (DocRecord.utf8), likewise. `rows`: only
+ * the records of those file-wide rows (records are in row order: reading stops past them).
  */
-export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: StageContext, o: { text?: boolean | "utf8" } = {}): AsyncGenerator<DocRecord> {
+export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: StageContext, o: { text?: boolean | "utf8"; rows?: { from: number; to: number } } = {}): AsyncGenerator<DocRecord> {
   const { from, keyed } = sourceOf(env.plan, k);
   const apply: UnitApplier[] = [];
   for (const s of keyed) apply.push(await (await applierOf(env, s, ctx.count))(u));
@@ -213,11 +214,16 @@ export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: St
   const path = unitsFile(env.plan.workDir, from.name, u);
   env.meter.reading(path, 0, await fileSize(path));
   // Text left undecoded only when no keyed step's decision is applied here (an applier may read or edit it).
-  next: for await (const e of readEvents(path, { text: keyed.length > 0 ? true : (o.text ?? true) })) {
+  // Row numbers in the read phase's files are the part's own; fixFromRead makes them the file's.
+  const fromSeq = o.rows ? o.rows.from - (from.does.kind === "read" ? unitFixes(env)[u].rows : 0) : undefined;
+  next: for await (const e of readEvents(path, { text: keyed.length > 0 ? true : (o.text ?? true), fromSeq })) {
     if (e.k !== "rec") continue;
     let r: DocRecord | undefined = e.r;
+    if (from.does.kind === "read") fixFromRead(env, u, r);
+    // Only the rows asked for (a packing group's share of a large file), before any decision counts them.
+    if (o.rows && r.seq < o.rows.from) continue;
+    if (o.rows && r.seq >= o.rows.to) break;
     if (from.does.kind === "read") {
-      fixFromRead(env, u, r);
       if (weight !== 1 && copiesFor(weight, `${r.source}\u0000${r.id}`, env.p.config.seed) === 0) {
         ctx.drop(r, "subsampled", { weight });
         continue;
@@ -279,26 +285,67 @@ export class UnitOutput {
 
 export type { UnitEvent };
 
-/** A packing group: consecutive units, whole input files only. */
+/** A packing group: consecutive whole input files, or a share of the rows of one large file. */
 export interface PackGroup {
   g: number;
   units: number[];
   bytes: number;
+  /**
+   * Set when a file larger than the group size is cut into several groups: the file's rows
+   * [from, to) (numbered from 0 across its parts) are this group's, and `last` says the group holds
+   * the file's end (and with it a truncation notice).
+   */
+  rows?: { from: number; to: number; last: boolean };
 }
 
 /**
  * Packing groups: consecutive input files in build order, a new group started before the file that
- * would take the group past `groupBytes` (a larger file is a group of its own). Defined by the files
- * alone, never by parts or tasks, so the packed bytes do not depend on how the work is cut.
+ * would take the group past `groupBytes`. An uncompressed JSONL file larger than that is cut into ceil(size /
+ * groupBytes) groups of equal shares of its rows (`rowsOf` gives each unit's rows, known once the
+ * read phase is done; without it such a file is one group). Defined by the files and their rows
+ * alone, never by parts (`unit_mb`) or tasks, so the packed bytes do not depend on how the work is
+ * cut; and no task packs more than about `groupBytes` of a file however large it is.
  */
-export function packGroups(units: Unit[], groupBytes: number): PackGroup[] {
+export function packGroups(units: Unit[], groupBytes: number, rowsOf?: (u: number) => number): PackGroup[] {
   const groups: PackGroup[] = [];
   let cur: PackGroup | undefined;
-  for (const unit of units) {
-    const firstOfFile = !unit.range || unit.range.start === 0;
-    if (firstOfFile && (!cur || (cur.bytes > 0 && cur.bytes + unit.size > groupBytes))) groups.push((cur = { g: groups.length, units: [], bytes: 0 }));
-    cur!.units.push(unit.u);
-    if (firstOfFile) cur!.bytes += unit.size;
+  for (let at = 0; at < units.length; ) {
+    // The file's units: its first and every later part.
+    let end = at + 1;
+    while (end < units.length && units[end].range && units[end].range!.start > 0) end++;
+    const file = units.slice(at, end);
+    at = end;
+    const size = file[0].size;
+    // Only a file that can be cut into parts (uncompressed JSONL): a group reads its share of the rows from the parts they lie in.
+    if (size > groupBytes && rowsOf && file[0].source.format === "jsonl" && compressionOf(file[0].path) === "none") {
+      cur = undefined;
+      groups.push(...rowGroups(file, Math.ceil(size / groupBytes), rowsOf, groups.length));
+      continue;
+    }
+    if (!cur || (cur.bytes > 0 && cur.bytes + size > groupBytes)) groups.push((cur = { g: groups.length, units: [], bytes: 0 }));
+    cur.units.push(...file.map((u) => u.u));
+    cur.bytes += size;
   }
   return groups;
+}
+
+/** One large file's groups: n equal shares of its rows, each with the units its rows lie in. */
+function rowGroups(file: Unit[], n: number, rowsOf: (u: number) => number, first: number): PackGroup[] {
+  const starts: number[] = [];
+  let total = 0;
+  for (const u of file) {
+    starts.push(total);
+    total += rowsOf(u.u);
+  }
+  const out: PackGroup[] = [];
+  for (let j = 0; j < n; j++) {
+    const from = Math.floor((j * total) / n);
+    const to = Math.floor(((j + 1) * total) / n);
+    const last = j === n - 1;
+    // A file with fewer rows than groups leaves some shares empty; the last group always stays (it reports a truncation).
+    if (to === from && !last) continue;
+    const units = file.filter((u, k) => (starts[k] < to && starts[k] + rowsOf(u.u) > from) || (last && k === file.length - 1)).map((u) => u.u);
+    out.push({ g: first + out.length, units, bytes: Math.round((file[0].size * (to - from)) / Math.max(1, total)), rows: { from, to, last } });
+  }
+  return out;
 }

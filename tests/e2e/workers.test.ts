@@ -1,4 +1,6 @@
-// Worker threads: the same bytes for any number of workers, and a failing stage names its record.
+// Worker threads: the same bytes for any number of workers, and a failing stage names its record;
+// likewise with a phase's tasks side by side in task threads (SIFTPACK_TASK_THREADS_FROM_MB=0 makes
+// a small input use them).
 import { describe, expect, it } from "vitest";
 import { mkdirSync, writeFileSync } from "node:fs";
 import { join } from "node:path";
@@ -64,6 +66,25 @@ describe("worker threads", () => {
   it("a stage that throws in a worker fails the run naming the record, without hanging", () => {
     const dir = generatedCorpus();
     const r = siftpack(["run", join(dir, "p.yaml"), "--workers", "2"], { env: { SIFTPACK_FAIL_ON_RECORD: "g1-700" } });
+    expect(r.code).toBe(1);
+    expect(r.stderr).toBe(`siftpack: error: a stage failed on record "g1-700" (source gen, data/part-1.jsonl:701): injected failure on record g1-700\n`);
+  });
+
+  it("tasks side by side in task threads give the bytes of one task per phase", () => {
+    const [a, b] = [1, 2].map((w) => {
+      const dir = generatedCorpus();
+      const r = siftpack(["run", join(dir, "p.yaml"), "--workers", String(w), "--no-cache", "--json"], { env: { SIFTPACK_TASK_THREADS_FROM_MB: "0", SIFTPACK_LOG: "debug" } });
+      expect(r.code, r.stderr).toBe(0);
+      // The plan: one task per phase with one worker, two per worker with two (tasks 0–3 of the read phase ran).
+      expect(r.stderr).toContain(w === 1 ? `"phase":"read","task":0,"tasks":1` : `"phase":"read","task":3,"tasks":4`);
+      return outputFiles(join(dir, "out"));
+    });
+    expect(b).toEqual(a);
+  });
+
+  it("a stage that throws in a task thread fails the run naming the record, as with one task", () => {
+    const dir = generatedCorpus();
+    const r = siftpack(["run", join(dir, "p.yaml"), "--workers", "2"], { env: { SIFTPACK_FAIL_ON_RECORD: "g1-700", SIFTPACK_TASK_THREADS_FROM_MB: "0" } });
     expect(r.code).toBe(1);
     expect(r.stderr).toBe(`siftpack: error: a stage failed on record "g1-700" (source gen, data/part-1.jsonl:701): injected failure on record g1-700\n`);
   });
