@@ -92,9 +92,9 @@ export const pipelineSchema = obj({
       tasks: field(num({ integer: true, min: 1, max: 100000 }), { default: 8 }),
       work_dir: field(str({ nonEmpty: true })),
       /** Uncompressed JSONL files larger than this (MB) are read as several units, cut at line boundaries. */
-      unit_mb: field(num({ min: 0.01 }), { default: 1024 }),
+      unit_mb: field(num({ min: 0.01 }), { default: 16 }),
     }),
-    { default: { tasks: 8, work_dir: undefined, unit_mb: 1024 } },
+    { default: { tasks: 8, work_dir: undefined, unit_mb: 16 } },
   ),
 });
 

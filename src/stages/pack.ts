@@ -40,8 +40,10 @@ export const packOptions = refine(
     shuffle: field(shuffleSchema, { default: ["train"] }),
     shuffle_window: field(num({ integer: true, min: 1, max: 10_000_000 }), { default: 4096 }),
     // Input megabytes per packing group: consecutive input files are packed, shuffled and written
-    // together, one task per group; a group ends before the file that would take it past this size.
-    group_mb: field(num({ min: 0.000001, max: 1e9 }), { default: 256 }),
+    // together, one task per group; a group ends before the file that would take it past this size,
+    // and a larger JSONL file is cut into groups of its rows. 32 MB: enough groups for every core on
+    // a 50 MB input, and still thousands of blocks per group (the extra padding is measured in the README).
+    group_mb: field(num({ min: 0.000001, max: 1e9 }), { default: 32 }),
   }),
   (o, path, issues) => {
     if (o.buffer_docs !== undefined && o.strategy !== "best-fit")

@@ -27,7 +27,7 @@ function problems(packLine: string): string[] {
 
 describe("pack options", () => {
   it("fills in defaults: concat, shuffle the train split in a 4096-row window, no buffer_docs", () => {
-    expect(options({})).toEqual({ length: 1024, strategy: "concat", emit: [], shuffle: ["train"], shuffle_window: 4096, group_mb: 256 });
+    expect(options({})).toEqual({ length: 1024, strategy: "concat", emit: [], shuffle: ["train"], shuffle_window: 4096, group_mb: 32 });
     expect(shufflesSplit(["train"], "train")).toBe(true);
     expect(shufflesSplit(["train"], "val")).toBe(false);
     expect(shufflesSplit(true, "test")).toBe(true);
