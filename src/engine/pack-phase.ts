@@ -146,12 +146,15 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         env.log.warn({ source: truncated.source, file: truncated.file, rows_read: truncated.rows_read, rows_lost: truncated.rows_lost, bytes_read: truncated.bytes_read, size: truncated.size }, `source "${truncated.source}": ${truncated.file} is truncated (${truncated.error}) after ${truncated.rows_read} rows; built from what could be read (accept_truncated)`);
       }
     }
+    // The splits' last shards are written (and synced) together, with the ledger's end.
+    const ends: Promise<void>[] = [];
     for (const { writer, packer } of writers.values()) {
       packer.finish();
-      await writer.finish();
-      Object.assign(writer.stats, packer.stats);
+      ends.push(writer.finish().then(() => void Object.assign(writer.stats, packer.stats)));
     }
-    await ledger.close();
+    ends.push(ledger.close());
+    const failed = (await Promise.allSettled(ends)).find((r) => r.status === "rejected");
+    if (failed) throw (failed as PromiseRejectedResult).reason;
     for (const f of feeds) await f.finish();
   } catch (err) {
     for (const f of feeds) await f.abort();

@@ -61,6 +61,9 @@ export interface ShardWriterOptions {
   origins?: boolean;
 }
 
+/** Rows a split's first buffer holds before it grows. */
+const FIRST_ROWS = 64;
+
 export class ShardWriter {
   private readonly o: ShardWriterOptions;
   private tokens: Uint32Array;
@@ -89,13 +92,17 @@ export class ShardWriter {
 
   constructor(o: ShardWriterOptions) {
     this.o = o;
-    this.tokens = new Uint32Array(o.shardBlocks * o.length);
-    this.segments = new Uint32Array(o.shardBlocks * o.length);
+    // Room for a few rows at first, doubled as rows come, up to a shard: a split that gets few rows
+    // in a packing group (held-out text, a small group) never holds a whole shard's arrays.
+    const rows = Math.min(o.shardBlocks, FIRST_ROWS);
+    this.tokens = new Uint32Array(rows * o.length);
+    this.segments = new Uint32Array(rows * o.length);
   }
 
   /** Copies one row in (sync, called by the packer); full shards wait for `writePending`. */
   addRow(tokens: Uint32Array, segments: Uint32Array, pieces: readonly RowPiece[] = []): void {
     const L = this.o.length;
+    if ((this.rows + 1) * L > this.tokens.length) this.grow();
     this.tokens.set(tokens, this.rows * L);
     this.segments.set(segments, this.rows * L);
     if (this.o.origins) this.pieces.push(pieces);
@@ -103,11 +110,22 @@ export class ShardWriter {
     this.countRow(segments);
     if (this.rows === this.o.shardBlocks) {
       this.full.push({ tokens: this.tokens, segments: this.segments, rows: this.rows, pieces: this.pieces });
+      // The next shard of a split that filled one is likely full too: its whole size at once.
       this.tokens = new Uint32Array(this.o.shardBlocks * L);
       this.segments = new Uint32Array(this.o.shardBlocks * L);
       this.pieces = [];
       this.rows = 0;
     }
+  }
+
+  private grow(): void {
+    const rows = Math.min(this.o.shardBlocks, 2 * (this.tokens.length / this.o.length));
+    const tokens = new Uint32Array(rows * this.o.length);
+    const segments = new Uint32Array(rows * this.o.length);
+    tokens.set(this.tokens);
+    segments.set(this.segments);
+    this.tokens = tokens;
+    this.segments = segments;
   }
 
   private countRow(seg: Uint32Array): void {
