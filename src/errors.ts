@@ -19,6 +19,7 @@ export const ERROR_CODES = {
   SP_OVERLAP: "overlap between splits is above the allowed rate",
   SP_TASK_ORDER: "a task's phase cannot start: a task of an earlier phase has not finished",
   SP_WORK: "the work directory of a task plan is missing or unreadable",
+  SP_MIXTURE: "the training mixture cannot be met from the train tokens there are",
 } as const;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

@@ -18,6 +18,7 @@ const EXIT: Record<ErrorCode, 1 | 2> = {
   SP_OVERLAP: 1,
   SP_TASK_ORDER: 1,
   SP_WORK: 1,
+  SP_MIXTURE: 1,
 };
 
 describe("error codes", () => {

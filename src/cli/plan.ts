@@ -14,6 +14,18 @@ import { writeLaunchFiles } from "../launch/launch-file.js";
 import type { StageEntry } from "../pipeline/config.js";
 import { filterAssumptions } from "../filter/assumptions.js";
 import type { Issue } from "../pipeline/schema.js";
+import { estimateMixture, type MixtureEstimate } from "../engine/mixture-estimate.js";
+import { table } from "./summary.js";
+
+/** The mixture estimate as plain lines: what it is made from, and per source the expected tokens, factor and epochs. */
+export function estimateLines(e: MixtureEstimate): string {
+  let out = `mixture estimate (before the stages run: filtering and dedup will lower every figure): train tokens per source = input bytes / sampled bytes per token (${e.tokenizer})`;
+  out += e.train_fraction < 1 ? ` × ${+e.train_fraction.toFixed(4)} (train's fraction of the split)\n` : "\n";
+  out += `train budget ${e.train_tokens} tokens (${e.budget_from === "asked" ? "asked" : "the largest that repeats no source"})\n`;
+  const rows: (string | number)[][] = [["source", "input bytes", "sample", "bytes/token", "est. train tokens", "share", "tokens asked", "factor (epochs)"]];
+  for (const s of e.sources) rows.push([s.source, s.input_bytes, `${s.sample.records} records in ${s.sample.files} of ${s.files} files`, s.bytes_per_token.toFixed(2), s.train_tokens, `${(100 * s.share).toFixed(1)}%`, s.tokens_asked, s.epochs.toFixed(2)]);
+  return out + table(rows).trimEnd().replace(/^/gm, "  ") + "\n";
+}
 
 interface Args {
   file: string;
@@ -128,7 +140,10 @@ export const planCommand: CommandModule<object, Args> = {
     const stages = p.config.stages.map((s, i) => ({ [s.name]: explained[i].settings }));
     // Derived figures apart from the settings, so that the printed settings are a valid pipeline file.
     const derived = p.config.stages.map((s, i) => ({ stage: i + 1, name: s.name, ...explained[i].figures })).filter((d) => Object.keys(d).length > 2);
-    const plan = { pipeline: displayPath(p.file), hash: p.hash, ...p.config, output: { ...p.config.output, resolved_dir: displayPath(p.outDir) }, stages, derived, inputs: files, ...(warnings.length ? { warnings } : {}) };
+    // What the mixture's shares are expected to cost, from a sample of each source (an estimate, said as such).
+    const estimate = await estimateMixture(p);
+    if (estimate) warnings.push(...estimate.warnings);
+    const plan = { pipeline: displayPath(p.file), hash: p.hash, ...p.config, output: { ...p.config.output, resolved_dir: displayPath(p.outDir) }, stages, derived, inputs: files, ...(estimate ? { mixture_estimate: estimate } : {}), ...(warnings.length ? { warnings } : {}) };
     if (args.json) {
       process.stdout.write(JSON.stringify(plan, null, 2) + "\n");
       return;
@@ -136,13 +151,14 @@ export const planCommand: CommandModule<object, Args> = {
     let out = `# plan for ${plan.pipeline} (pipeline hash ${p.hash}); output to ${plan.output.resolved_dir}\n`;
     out += p.config.stages.map((s, i) => `# ${i + 1}. ${s.name}: ${STAGES[s.name].summary}`).join("\n") + "\n";
     out += filterAssumptions(p.config.stages).map((l) => `# ${l}\n`).join("");
-    out += stringify({ siftpack: 1, seed: p.config.seed, max_bad_fraction: p.config.max_bad_fraction, sources: p.config.sources, stages, output: p.config.output });
+    out += stringify({ siftpack: 1, seed: p.config.seed, max_bad_fraction: p.config.max_bad_fraction, sources: p.config.sources, ...(p.config.mixture ? { mixture: p.config.mixture } : {}), stages, output: p.config.output });
     if (derived.length > 0) {
       out += "# derived from the settings above (figures, not keys of a pipeline file):\n";
       out += stringify(Object.fromEntries(derived.map(({ stage, name, ...f }) => [`${stage}. ${name}`, f]))).replace(/^/gm, "#   ").replace(/#   $/, "");
     }
     out += "# input files\n";
     for (const [name, list] of Object.entries(files)) out += `#   ${name}: ${list.length} file${list.length === 1 ? "" : "s"}${list.length ? ` (${list.slice(0, 3).join(", ")}${list.length > 3 ? ", …" : ""})` : ""}\n`;
+    if (estimate) out += estimateLines(estimate).trimEnd().replace(/^/gm, "# ") + "\n";
     // Comments like the rest, so the output stays a valid pipeline file.
     for (const w of warnings) out += `# warning: ${w}\n`;
     process.stdout.write(out);

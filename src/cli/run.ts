@@ -76,7 +76,7 @@ export const runCommand: CommandModule<object, Args> = {
       display.finish(true);
       finished = true;
       const cacheDir = displayPath(cacheDirOf(outDir));
-      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, up_to_date: upToDate !== undefined, records: manifest.records, splits: manifest.splits, cache: { ...cache, dir: cacheDirOf(outDir) } }, null, 2) + "\n");
+      if (args.json) process.stdout.write(JSON.stringify({ dir: outDir, build_hash: manifest.build_hash, up_to_date: upToDate !== undefined, records: manifest.records, splits: manifest.splits, ...(manifest.mixture ? { mixture: manifest.mixture } : {}), cache: { ...cache, dir: cacheDirOf(outDir) } }, null, 2) + "\n");
       else process.stdout.write(formatSummary(displayPath(outDir), manifest) + (upToDate ? upToDateLine(upToDate.hashed, manifest) + `cache: ${cacheSizeText(cache, cacheDir)}\n` : cacheLine(cache, cacheDir)));
       if (args.lock) {
         const now = lockOf(manifest);

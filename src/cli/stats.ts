@@ -2,7 +2,7 @@
 import type { CommandModule } from "yargs";
 import { readManifest } from "../output/manifest.js";
 import { statsFigures } from "../report/figures.js";
-import { lengthTable, pct, recordsLine, splitTable, table } from "./summary.js";
+import { lengthTable, mixtureLines, pct, recordsLine, splitTable, table } from "./summary.js";
 import type { GroupStats } from "../analysis/token-stats-steps.js";
 
 interface Args {
@@ -32,9 +32,11 @@ export const statsCommand: CommandModule<object, Args> = {
     const rows: (string | number)[][] = [["source", "read", "kept", "dropped", "quarantined", "tokens", "token share"]];
     for (const [name, s] of Object.entries(m.records.by_source)) rows.push([name, s.read, s.kept, s.dropped, s.quarantined, s.tokens ?? 0, pct(s.tokens ?? 0, allTokens)]);
     out += table(rows);
+    const mixture = mixtureLines(m);
+    if (mixture) out += "\n" + mixture;
     const ts = m.token_stats as Record<string, { all: GroupStats; by_source: Record<string, GroupStats> }> | undefined;
     if (ts) {
-      out += "\ntokens per split and source (documents as kept, before repeats by weight)\n";
+      out += "\ntokens per split and source (documents as kept, before repeats by weight or mixture)\n";
       const t: (string | number)[][] = [["split", "source", "documents", "tokens", "targets", "bytes/token", "mean", "p50", "p90", "p99", "max"]];
       for (const [split, g] of Object.entries(ts)) {
         for (const [source, s] of [["all", g.all] as const, ...Object.entries(g.by_source)]) {

@@ -1,6 +1,7 @@
 // Plain-text tables for `run` and `stats`.
 import type { Manifest } from "../output/manifest.js";
 import type { DecontaminationEntry } from "../stages/decontaminate-report.js";
+import type { MixtureEntry } from "../engine/mixture.js";
 
 export function table(rows: (string | number)[][]): string {
   const widths = rows[0].map((_, c) => Math.max(...rows.map((r) => String(r[c]).length)));
@@ -82,12 +83,26 @@ export function skippedRulesLine(m: Manifest): string {
   return `filter: records a rule could not judge and passed: ${rules.join("; ")}\n`;
 }
 
+/** The training mixture: per source the asked and achieved share, the tokens available and used, the epochs; a warning line per source above four epochs. */
+export function mixtureLines(m: Manifest): string {
+  const x = m.mixture as MixtureEntry | undefined;
+  if (!x) return "";
+  const budget = x.budget_from === "asked" ? "asked" : "the largest that repeats no source";
+  let out = `mixture: train budget ${x.train_tokens} document tokens (${budget}), ${x.tokens_used} used\n`;
+  const rows: (string | number)[][] = [["source", "share asked", "achieved", "tokens available", "tokens used", "epochs"]];
+  for (const s of x.sources) rows.push([s.group ? `${s.source} (${s.group})` : s.source, pct(s.share, 1), pct(s.achieved_share, 1), s.tokens_available, s.tokens_used, s.epochs.toFixed(2)]);
+  out += table(rows).trimEnd().replace(/^/gm, "  ") + "\n";
+  for (const w of x.warnings) out += `WARNING: ${w}\n`;
+  return out;
+}
+
 export function formatSummary(dir: string, m: Manifest): string {
   return (
     `built ${dir}  (${m.tokenizer.name}, blocks of ${m.length} ${m.dtype} tokens, ${m.strategy} packing, build ${m.build_hash})\n` +
     recordsLine(m) +
     skippedRulesLine(m) +
     decontaminationLines(m) +
+    mixtureLines(m) +
     splitTable(m)
   );
 }

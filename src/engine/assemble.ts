@@ -25,6 +25,8 @@ import type { KeyedDirs } from "../stages/keyed.js";
 import { STAGES } from "../stages/index.js";
 import { decontaminationOf } from "../stages/decontaminate-report.js";
 import type { TaskDone } from "./workdir.js";
+import { mixtureOf } from "./mixture-tally.js";
+import { mixtureEntry } from "./mixture.js";
 
 export interface AssembleInput {
   /** The pack phase's name and its number of groups. */
@@ -125,6 +127,12 @@ export async function assemblePhase(env: TaskEnv, { packPhase, groupCount, analy
   // What decontamination removed and the n-grams behind it, from its report files (README, decontaminate).
   const decontamination = decontaminationOf(staging, stageFiles);
   if (decontamination) analysis.decontamination = decontamination;
+  // The training mixture: asked and achieved shares, tokens available and epochs per source (README, Mixtures).
+  const mixture = await mixtureOf(env);
+  if (mixture) {
+    analysis.mixture = mixtureEntry(mixture);
+    for (const w of mixture.warnings) env.log.warn({ mixture: true }, w);
+  }
   for (const a of analyses) analysis[a.steps.key] = await a.steps.figures(a.ctx, a.dirs, { seed: config.seed, baseDir: p.baseDir, log: env.log, count, tmpDir: staging });
 
   const splitOrder = ["train", "val", "test"];

@@ -11,6 +11,8 @@ import { collectUnit, KeyedDirs, type Collectors } from "../stages/keyed.js";
 import { dropRecord, readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { copiesFor } from "./weights.js";
+import { copiesOf as mixtureCopies, mixtureRank } from "./mixture.js";
+import { mixtureOf } from "./mixture-tally.js";
 import { Ledger, type LedgerCounts, type TruncatedFile } from "../output/ledger.js";
 import { ShardWriter, type Emit, type SplitStats, type WrittenFile } from "../output/shard-writer.js";
 import type { AnalysisSteps } from "../analysis/steps.js";
@@ -67,7 +69,12 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
     return w;
   };
   const weights = new Map(config.sources.map((s) => [s.name, s.weight]));
+  // With a mixture, a train record's copies come from the plan made of every unit's token figures.
+  const mixture = await mixtureOf(env);
+  const bySource = new Map((mixture?.sources ?? []).map((s) => [s.source, s]));
   const copiesOf = (r: DocRecord) => {
+    const m = bySource.get(r.source);
+    if (m) return mixtureCopies(m, mixtureRank(r.source, r.id, config.seed));
     const w = weights.get(r.source) ?? 1;
     return w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed);
   };
@@ -122,6 +129,11 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         // Repetition serves the training mixture only; held-out text is seen once.
         const n = split === "train" ? copiesOf(r) : 1;
         crashPoint("records");
+        if (n === 0) {
+          // A mixture's share below the source's tokens leaves this record out of train (README, Mixtures).
+          ledger.dropped(r, "subsampled", { share: +bySource.get(r.source)!.share.toFixed(6) });
+          return;
+        }
         ledger.kept(r, n !== 1 ? { copies: n } : {});
         const { writer, packer } = writerFor(split);
         // Each piece's origin (as the ledger names the record) goes with it into the shard's origins index.

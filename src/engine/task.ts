@@ -21,6 +21,7 @@ import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
 import { PhaseMeter, type ProgressListener } from "./progress.js";
 import { packGroup, analysisDirs } from "./pack-phase.js";
+import { TallyWriter, tallyPhase, tallyReadUnit } from "./mixture-tally.js";
 import { IDS_CHECK } from "./plan.js";
 import { sourcesToCheck, uniqueIdsForm } from "./unique-ids.js";
 import { outputSettings } from "../stages/output-settings.js";
@@ -136,6 +137,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
           const r = await readUnit(env, u, does.entries, pool, cache);
           for (const [name, n] of Object.entries(r.counts)) count(name, n);
           unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines };
+          if (tallyPhase(plan, p.config.mixture !== undefined)?.name === phase.name) await tallyReadUnit(env, u);
           if (ids) await collectIds(env, u, check, await collectUnit(ids.dirs, ids.collectors, u));
         }
       } finally {
@@ -260,12 +262,16 @@ async function passUnit(env: TaskEnv, u: number, stages: PassStages, count: (nam
   const out = await UnitOutput.open(work, env.phase.name, u);
   const ctx: StageContext = { seed: env.p.config.seed, log: env.log, workDir: phaseDir(work, env.phase.name), addOutputFile: () => {}, count, drop: (r, reason, detail) => out.drop(r, reason, detail) };
   const summaries: unknown[] = [];
+  // When packing reads this pass's records, the unit's train figures for the mixture are gathered here.
+  const tally = tallyPhase(env.plan, env.p.config.mixture !== undefined)?.name === env.phase.name ? new TallyWriter(env.p.config.seed) : undefined;
   try {
     for await (const r of stages.run(recordsBefore(env, env.phase.index, u, ctx), ctx, summaries, env.units[u].range)) {
+      tally?.add(r);
       await collector?.add(r);
       await out.add(r);
     }
     await collector?.finish();
+    await tally?.write(work, env.phase.name, u);
     if (summaries.length > 0) await writeAtomic(summaryFile(work, env.phase.name, u), JSON.stringify(summaries) + "\n");
     await out.commit();
   } catch (err) {

@@ -10,6 +10,7 @@ import type { StageEntry } from "../pipeline/config.js";
 import { SiftpackError } from "../errors.js";
 import { FrameWriter } from "../cache/record-events.js";
 import type { DocRecord, StageContext } from "../types.js";
+import { TallyWriter, tallyPhase } from "./mixture-tally.js";
 import { dropsFile, recordsBefore, unitFixes, UnitOutput, type TaskEnv } from "./unit-io.js";
 import { writeAtomic } from "./workdir.js";
 import { crashPoint } from "../lib/crash-point.js";
@@ -61,16 +62,20 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
   for (const e of entries) stream = (await STAGES[e.name].create(e.options, { baseDir: env.p.baseDir, workers: env.threads }))(stream, ctx);
   // Records come out in input order; each unit's output is opened when its first record arrives.
   const records = new Map<number, number>();
-  let current: { u: number; out: UnitOutput } | undefined;
+  let current: { u: number; out: UnitOutput; tally?: TallyWriter } | undefined;
   let next = 0;
+  // When packing reads this phase's records, each unit's train figures for the mixture are gathered here.
+  const tallies = tallyPhase(env.plan, env.p.config.mixture !== undefined)?.name === name;
   const openUpTo = async (u: number) => {
     if (current) {
+      await current.tally?.write(work, name, current.u);
       await current.out.commit();
       records.set(current.u, current.out.records);
       current = undefined;
     }
     for (; next < u; next++) {
       const empty = await UnitOutput.open(work, name, next);
+      if (tallies) await new TallyWriter(env.p.config.seed).write(work, name, next);
       await empty.commit();
       records.set(next, 0);
     }
@@ -81,10 +86,11 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
       if (!current || current.u !== u) {
         if (u < next) throw new SiftpackError("SP_STAGE", `stage output is out of input order: record "${r.id}" of ${r.origin.file} came after records of later files`);
         await openUpTo(u);
-        current = { u, out: await UnitOutput.open(work, name, u) };
+        current = { u, out: await UnitOutput.open(work, name, u), tally: tallies ? new TallyWriter(env.p.config.seed) : undefined };
         next = u + 1;
       }
       crashPoint("whole");
+      current.tally?.add(r);
       await current.out.add(r);
     }
     await openUpTo(env.units.length);

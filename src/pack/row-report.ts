@@ -44,7 +44,7 @@ export function describeRow(r: RowInput): RowReport {
 /** Where a piece came from, for its boundary line: source, id, file and line, copy, and where in the document it starts if not at 0. */
 export function originText(o: OriginLine): string {
   let out = `${o.source} ${JSON.stringify(o.id)} · ${o.file} line ${o.line}`;
-  if (o.copy) out += ` · copy ${o.copy + 1} (source weight)`;
+  if (o.copy) out += ` · copy ${o.copy + 1} (source weight or mixture)`;
   if (o.offset > 0) out += ` · from the document's token ${o.offset}`;
   return out;
 }

@@ -2,6 +2,7 @@
 import { bool, field, list, num, obj, str, literal, type Infer, type Issue, type Path, type Schema } from "./schema.js";
 import { STAGES } from "../stages/index.js";
 import { closest } from "../lib/did-you-mean.js";
+import { formOf } from "../stages/stage.js";
 
 export const FORMATS = ["jsonl", "json", "csv", "tsv", "text", "parquet"] as const;
 
@@ -72,12 +73,44 @@ const overlapSchema: Schema<OverlapSettings> = {
   },
 };
 
+/** A mapping of names to values (the names are checked by the rules across keys, which know the sources). */
+function mapOf<T>(value: Schema<T>, what: string): Schema<Record<string, T>> {
+  const describe = `a mapping of ${what}`;
+  return {
+    describe,
+    check(v, path, issues) {
+      if (v === null || typeof v !== "object" || Array.isArray(v)) {
+        issues.push({ path, message: `expected ${describe}, got ${Array.isArray(v) ? "a list" : v === null ? "null" : typeof v}` });
+        return {};
+      }
+      const out: Record<string, T> = {};
+      for (const [k, x] of Object.entries(v as Record<string, unknown>)) out[k] = value.check(x, [...path, k], issues);
+      return out;
+    },
+  };
+}
+
+/**
+ * The training mixture by token budget (README, Mixtures): shares of the train tokens per source
+ * or group of sources, and optionally the budget. No schema default: a pipeline without it keeps
+ * its resolved form and hash.
+ */
+const mixtureSchema = obj({
+  train_tokens: field(num({ min: 1 })),
+  shares: field(mapOf(num({ min: 0, max: 1 }), "source or group names to shares from 0 to 1"), { required: true }),
+  groups: field(mapOf(list(str({ nonEmpty: true }), { nonEmpty: true }), "group names to lists of source names")),
+  // Above this many epochs of any source the build fails with the figures (README, Mixtures).
+  max_epochs: field(num({ min: 1, max: 1000 }), { default: 16 }),
+});
+export type MixtureConfig = Infer<typeof mixtureSchema>;
+
 export const pipelineSchema = obj({
   siftpack: field(literal(1), { required: true }),
   seed: field(num({ integer: true, min: 0, max: 2 ** 32 - 1 }), { default: 0 }),
   max_bad_fraction: field(num({ min: 0, max: 1 }), { default: 0.01 }),
   overlap: field(overlapSchema, { default: { enabled: true, ngram: 13, near_duplicates: true } }),
   sources: field(list(sourceSchema, { nonEmpty: true }), { required: true }),
+  mixture: field(mixtureSchema),
   stages: field(list(stageEntry, { nonEmpty: true }), { required: true }),
   output: field(
     obj({
@@ -120,6 +153,7 @@ export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
     if (s.max_line_mb !== undefined && typeof s.format === "string" && (FORMATS as readonly string[]).includes(s.format) && !LINE_LIMITED.includes(s.format))
       issues.push({ path: ["sources", i, "max_line_mb"], atKey: true, message: `max_line_mb applies to formats ${LINE_LIMITED.join(", ")} only (format is ${s.format})` });
   });
+  checkMixtureRules(c, sources, issues);
   if (!Array.isArray(c.stages)) return;
   const at = (n: string) => stages.findIndex((s) => s.name === n);
   const tok = at("tokenize");
@@ -132,6 +166,15 @@ export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
     if (!unknown) issues.push({ path: stagesPath, message: `the stages need a "pack" stage, last` });
   } else if (pack !== stages.length - 1) issues.push({ path: ["stages", pack, "pack"], atKey: true, message: `"pack" must be the last stage` });
   if (tok >= 0 && pack >= 0 && tok > pack) issues.push({ path: ["stages", tok, "tokenize"], atKey: true, message: `"tokenize" must come before "pack"` });
+  if (c.mixture && tok >= 0 && pack >= 0) {
+    // The mixture is planned from the tokens of the records as written after tokenize; a stage that
+    // decides over the whole corpus after it would remove records from under those figures.
+    for (let i = tok + 1; i < pack; i++) {
+      const def = STAGES[stages[i].name];
+      if (def && formOfSafe(def, stages[i].options) === "keyed")
+        issues.push({ path: ["stages", i, stages[i].name], atKey: true, message: `with a mixture, "${stages[i].name}" must come before "tokenize": the shares are planned from the tokens of the records that reach packing` });
+    }
+  }
   for (const n of ["tokenize", "pack", "split"]) {
     if (stages.filter((s) => s.name === n).length > 1) issues.push({ path: stagesPath, message: `"${n}" may appear only once` });
   }
@@ -151,5 +194,64 @@ export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
     const decon = at("decontaminate");
     if (decon >= 0 && decon < splitAt)
       issues.push({ path: ["stages", decon, "decontaminate"], atKey: true, message: `"decontaminate" must come after "split": it checks training records only, and before split every record counts as training` });
+  }
+}
+
+/** A mixture names existing sources (directly or through its groups), each once, with shares summing to 1, and no source has a weight too. */
+function checkMixtureRules(c: PipelineConfig, sources: (SourceConfig | undefined)[], issues: Issue[]): void {
+  const m = c.mixture;
+  if (m === undefined || m === null || typeof m !== "object") return;
+  const names = sources.flatMap((s) => (s && typeof s.name === "string" && s.name !== "" ? [s.name] : []));
+  const list = names.map((n) => `"${n}"`).join(", ");
+  // A plain factor and a share say two different things about the same source: one file uses one.
+  sources.forEach((s, i) => {
+    if (s && typeof s.weight === "number" && s.weight !== 1)
+      issues.push({ path: ["sources", i, "weight"], atKey: true, message: `source "${s.name}" has a weight and the pipeline has a mixture; use one: the mixture's shares, or weights without a mixture` });
+  });
+  const groups = m.groups && typeof m.groups === "object" ? m.groups : {};
+  const inGroup = new Map<string, string>();
+  for (const [g, members] of Object.entries(groups)) {
+    if (names.includes(g)) issues.push({ path: ["mixture", "groups", g], atKey: true, message: `group "${g}" has the name of a source; give the group another name` });
+    if (!Array.isArray(members)) continue;
+    members.forEach((s, i) => {
+      if (typeof s !== "string" || s === "") return;
+      if (!names.includes(s)) {
+        const near = closest(s, names);
+        issues.push({ path: ["mixture", "groups", g, i], message: `group "${g}" names source "${s}", which is not a source${near ? ` (did you mean "${near}"?)` : ""}; the sources are ${list}` });
+      } else if (inGroup.has(s)) issues.push({ path: ["mixture", "groups", g, i], message: `source "${s}" is in two groups ("${inGroup.get(s)}" and "${g}"); a source belongs to one group at most` });
+      else inGroup.set(s, g);
+    });
+  }
+  const shares = m.shares && typeof m.shares === "object" ? m.shares : {};
+  const covered = new Set<string>();
+  let sum = 0;
+  for (const [k, v] of Object.entries(shares)) {
+    if (typeof v === "number") sum += v;
+    if (k in groups) {
+      for (const s of Array.isArray(groups[k]) ? groups[k] : []) covered.add(s);
+      continue;
+    }
+    if (!names.includes(k)) {
+      const near = closest(k, [...names, ...Object.keys(groups)]);
+      issues.push({ path: ["mixture", "shares", k], atKey: true, message: `mixture.shares names source "${k}", which is not a source${Object.keys(groups).length ? " or group" : ""}${near ? ` (did you mean "${near}"?)` : ""}; the sources are ${list}` });
+      continue;
+    }
+    if (inGroup.has(k)) issues.push({ path: ["mixture", "shares", k], atKey: true, message: `source "${k}" has a share of its own and is in group "${inGroup.get(k)}"; give it one or the other` });
+    covered.add(k);
+  }
+  for (const g of Object.keys(groups)) if (!(g in shares)) issues.push({ path: ["mixture", "groups", g], atKey: true, message: `group "${g}" has no share in mixture.shares` });
+  const missing = names.filter((n) => !covered.has(n) && !inGroup.has(n));
+  // Every source is named, so that leaving one out of train is a decision (share 0), not a typo.
+  if (missing.length) issues.push({ path: ["mixture", "shares"], message: `mixture.shares gives no share to ${missing.map((n) => `"${n}"`).join(", ")}; give every source (or a group holding it) a share, 0 to leave it out of train` });
+  // Shares are fractions of one budget; 0.001 of slack lets thirds be written as 0.333.
+  if (Object.keys(shares).length > 0 && Math.abs(sum - 1) > 0.001) issues.push({ path: ["mixture", "shares"], message: `mixture.shares sum to ${+sum.toFixed(6)}, not 1; the shares are fractions of the train tokens` });
+}
+
+/** A stage's form kind, or undefined when its options are too broken to say (the schema reports them). */
+function formOfSafe(def: (typeof STAGES)[string], options: unknown): string | undefined {
+  try {
+    return formOf(def, options).kind;
+  } catch {
+    return undefined;
   }
 }

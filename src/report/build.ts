@@ -5,6 +5,7 @@ import { readManifest } from "../output/manifest.js";
 import { statsFigures } from "./figures.js";
 import { funnelSection } from "./funnel-section.js";
 import { splitsSection } from "./splits.js";
+import { mixtureSection } from "./mixture.js";
 import { lengthsSection } from "./lengths.js";
 import { clustersSection, readClusters } from "./clusters.js";
 import { configuredFields, excerpts, withoutInputText, type Excerpt } from "./excerpts.js";
@@ -58,6 +59,7 @@ export async function buildReport(dir: string, label = dir, o: ReportOptions = {
     sections: [
       { id: "records", title: "Records from input to splits", nav: "Records", html: funnelSection(m, quarantine) },
       { id: "splits", title: "Documents and tokens per split and source", nav: "Splits and sources", html: splitsSection(m, figures) },
+      { id: "mixture", title: "Mixture of the train split: shares and epochs", nav: "Mixture", html: mixtureSection(m) },
       { id: "lengths", title: "Document lengths", nav: "Lengths", html: lengthsSection(m) },
       { id: "clusters", title: "Near-duplicate clusters", nav: "Near-duplicates", html: clustersSection(m, clusters, texts) },
       { id: "packing", title: "Packing: padding and cuts", nav: "Packing", html: packingSection(m, mask) },

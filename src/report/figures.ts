@@ -9,7 +9,7 @@ export function statsFigures(m: Manifest) {
   const splits = Object.fromEntries(
     Object.entries(m.splits).map(([k, s]) => [k, { ...s, shards: s.shards.length, padding_fraction: s.padding_fraction ?? (s.blocks ? s.padding_tokens / (s.blocks * m.length) : 0) }]),
   );
-  return { length: m.length, strategy: m.strategy, tokenizer: m.tokenizer.name, splits, records: m.records, token_stats: m.token_stats };
+  return { length: m.length, strategy: m.strategy, tokenizer: m.tokenizer.name, splits, records: m.records, token_stats: m.token_stats, ...(m.mixture ? { mixture: m.mixture } : {}) };
 }
 
 export type StatsFigures = ReturnType<typeof statsFigures>;

@@ -64,7 +64,7 @@ export function funnelSection(m: Manifest, quarantine: { file: string; line: num
     { cls: "drop", label: "removed by the reason" },
     ...f.splits.map((s, i) => ({ cls: splitClass(s.name, i), label: `kept in ${s.name}` })),
   ]);
-  parts.push(`<figure>${funnelChart(f)}${legend}<figcaption>Records read, each drop reason in pipeline order, and the records kept per split (before repeats by source weight).</figcaption></figure>`);
+  parts.push(`<figure>${funnelChart(f)}${legend}<figcaption>Records read, each drop reason in pipeline order, and the records kept per split (before repeats by source weight or mixture).</figcaption></figure>`);
   const rows = f.steps.map((s) => [esc(s.stage), `${esc(s.label)} <code>${esc(s.reason)}</code>`, fig(["records", "by_reason", s.reason], s.count), int(s.after), pct(s.count / Math.max(1, f.read))]);
   parts.push(
     table({

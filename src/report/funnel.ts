@@ -34,7 +34,7 @@ export function stagesOf(m: Manifest): StageEntry[] {
 export function reasonLabel(reason: string): string {
   const fixed: Record<string, string> = {
     quarantined: "unreadable (quarantined)",
-    subsampled: "subsampled by source weight",
+    subsampled: "subsampled by source weight or mixture",
     duplicate: "exact duplicate",
     "near-duplicate": "near-duplicate",
     decontaminated: "overlaps a protected set",

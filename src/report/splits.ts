@@ -28,7 +28,7 @@ export function splitsSection(m: Manifest, f: StatsFigures): string {
         }));
     parts.push(
       `<figure>${hbars({ title: "Tokens per split, by source", desc: `Document tokens in each split, stacked by the source they came from (${sources.join(", ")}).`, rows: rows("tokens"), unit: "tokens" })}` +
-        `<figcaption>Tokens per split and source, end-of-text included, each document counted once (repeats by source weight are not drawn).</figcaption></figure>`,
+        `<figcaption>Tokens per split and source, end-of-text included, each document counted once (repeats by source weight or mixture are not drawn).</figcaption></figure>`,
     );
     parts.push(
       `<figure>${hbars({ title: "Documents per split, by source", desc: `Documents in each split, stacked by source.`, rows: rows("documents"), unit: "documents" })}` +
@@ -41,7 +41,7 @@ export function splitsSection(m: Manifest, f: StatsFigures): string {
 
   parts.push(
     table({
-      caption: "Splits as packed (documents and tokens include repeats by source weight)",
+      caption: "Splits as packed (documents and tokens include repeats by source weight or mixture)",
       head: ["split", "documents", "blocks", "tokens", "target tokens", "padding tokens", "padding", "shards"],
       rows: splitNames.map((s) => {
         const x = f.splits[s];

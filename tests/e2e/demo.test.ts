@@ -52,12 +52,14 @@ describe("demo build", () => {
     expect(r.quarantined).toBeGreaterThan(0);
     const quarantine = readFileSync(join(out, "quarantine.jsonl"), "utf8").trim().split("\n");
     expect(quarantine.length).toBe(r.quarantined);
-    // kept documents per split equal the manifest's documents (train counts repeats by source weight)
+    // kept documents per split equal the manifest's documents (train counts repeats by the mixture)
     for (const [split, s] of Object.entries(manifest.splits))
       expect(lines.filter((l) => l.fate === "kept" && l.split === split).reduce((a, l) => a + (l.copies ?? 1), 0)).toBe(s.documents);
-    // the demo weights: notes are subsampled, manuals repeated in train
+    // the demo mixture: tickets are subsampled, manuals and notes repeated in train
+    expect(lines.filter((l) => l.reason === "subsampled").every((l) => l.source === "tickets")).toBe(true);
     expect(r.by_reason.subsampled).toBeGreaterThan(0);
     expect(lines.some((l) => l.source === "manuals" && l.copies === 2)).toBe(true);
+    expect(lines.some((l) => l.source === "notes" && l.copies === 2)).toBe(true);
   });
 
   it("never puts one depot in two splits", () => {

@@ -320,6 +320,30 @@ const ROWS: Row[] = [
     finished: false,
   },
   {
+    name: "a mixture that names a source that is not there, beside a weight",
+    setup: () => project({ "data/a.jsonl": lines(...GOOD) }, { source: ", weight: 2", top: "mixture: { shares: { tikets: 1 } }\n" }),
+    args: (c) => ["plan", c.pipeline!],
+    code: 2,
+    message: /p\.yaml: 3 problems in the pipeline file$/,
+    details: [
+      /^.*p\.yaml:\d+:\d+: sources\[0\]\.weight: source "tickets" has a weight and the pipeline has a mixture; use one: the mixture's shares, or weights without a mixture$/,
+      /^.*p\.yaml:\d+:\d+: mixture\.shares\.tikets: mixture\.shares names source "tikets", which is not a source \(did you mean "tickets"\?\); the sources are "tickets"$/,
+      /^.*p\.yaml:\d+:\d+: mixture\.shares: mixture\.shares gives no share to "tickets"; give every source \(or a group holding it\) a share, 0 to leave it out of train$/,
+    ],
+    finished: false,
+  },
+  {
+    name: "a mixture budget that needs more than max_epochs of a source",
+    setup: () => {
+      const p = project({ "data/a.jsonl": lines(...GOOD) }, { top: "mixture: { train_tokens: 100000, shares: { tickets: 1 } }\n" });
+      return { ...p, untouched: copyDemoBuild(p.out) };
+    },
+    args: run,
+    code: 1,
+    message: /p\.yaml: a train budget of 100000 tokens needs more than max_epochs 16 of "tickets": "tickets" has \d+ train tokens for a share of 1 \(100000 tokens\), [\d.]+ epochs; lower mixture\.train_tokens or that share, add data, or raise mixture\.max_epochs$/,
+    finished: false,
+  },
+  {
     name: "a protected file for decontaminate that does not exist",
     setup: () => {
       const p = project({ "data/a.jsonl": lines(...GOOD) });

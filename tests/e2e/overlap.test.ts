@@ -20,9 +20,11 @@ beforeAll(() => {
   dir = tempDir("overlap");
   // The demo pipeline with absolute input paths, its split (and any decontaminate) replaced by ours before tokenize.
   const demo = readFileSync(join(ROOT, "pipelines/demo.yaml"), "utf8").replaceAll("../sample-data/", `${ROOT}/sample-data/`);
-  // Also without the demo's line stripping and source weights: the Python second opinion below
-  // recomputes from the source files' own text, each kept record counted once.
-  const lines = demo.split("\n").filter((l) => !/^\s*- (split|decontaminate|strip_repeated_lines):/.test(l) && !/^\s*weight:/.test(l));
+  // Also without the demo's line stripping and its mixture (the `mixture:` block, to the next
+  // top-level key): the Python second opinion below recomputes from the source files' own text,
+  // each kept record counted once.
+  const withoutMixture = demo.replace(/^mixture:.*\n(?:[ #].*\n)*/m, "");
+  const lines = withoutMixture.split("\n").filter((l) => !/^\s*- (split|decontaminate|strip_repeated_lines):/.test(l) && !/^\s*weight:/.test(l));
   lines.splice(lines.findIndex((l) => /^\s*- tokenize:/.test(l)), 0, ...STAGES);
   writeFileSync(join(dir, "demo.yaml"), lines.join("\n"));
   out = join(dir, "out");

@@ -67,7 +67,7 @@ describe("the demo report in a browser", () => {
 
   it("has every section and every chart, each with visible marks", async () => {
     const sections = await page.$$eval("main > section", (els) => els.map((e) => e.id));
-    expect(sections).toEqual(["records", "splits", "lengths", "clusters", "packing", "overlap", "decontamination", "provenance"]);
+    expect(sections).toEqual(["records", "splits", "mixture", "lengths", "clusters", "packing", "overlap", "decontamination", "provenance"]);
     const charts = await page.$$eval("svg.chart", (svgs) =>
       svgs.map((svg) => {
         const section = svg.closest("section")!.id;
