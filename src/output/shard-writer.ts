@@ -61,8 +61,9 @@ export interface ShardWriterOptions {
   origins?: boolean;
 }
 
-/** Rows a split's first buffer holds before it grows. */
-const FIRST_ROWS = 64;
+/** Rows a split's first buffer holds, and the factor it grows by: a split that fills a 4096-row shard copies 1,280 rows on the way. */
+const FIRST_ROWS = 256;
+const GROWTH = 4;
 
 export class ShardWriter {
   private readonly o: ShardWriterOptions;
@@ -92,7 +93,7 @@ export class ShardWriter {
 
   constructor(o: ShardWriterOptions) {
     this.o = o;
-    // Room for a few rows at first, doubled as rows come, up to a shard: a split that gets few rows
+    // Room for a few rows at first, grown as rows come, up to a shard: a split that gets few rows
     // in a packing group (held-out text, a small group) never holds a whole shard's arrays.
     const rows = Math.min(o.shardBlocks, FIRST_ROWS);
     this.tokens = new Uint32Array(rows * o.length);
@@ -119,7 +120,7 @@ export class ShardWriter {
   }
 
   private grow(): void {
-    const rows = Math.min(this.o.shardBlocks, 2 * (this.tokens.length / this.o.length));
+    const rows = Math.min(this.o.shardBlocks, GROWTH * (this.tokens.length / this.o.length));
     const tokens = new Uint32Array(rows * this.o.length);
     const segments = new Uint32Array(rows * this.o.length);
     tokens.set(this.tokens);

@@ -17,17 +17,17 @@ describe("shard writer", () => {
   it("keeps every row, in order, while its buffers grow and a shard fills", async () => {
     const dir = mkdtempSync(join(tmpdir(), "siftpack-shards-"));
     const L = 8;
-    const w = new ShardWriter({ outDir: dir, split: "train", length: L, shardBlocks: 150, tokenDtype: "uint32", segmentDtype: "uint32", emit: [] });
-    const rows = 230; // 64 → 128 → 150 rows, a full shard, then 80 more
+    const w = new ShardWriter({ outDir: dir, split: "train", length: L, shardBlocks: 1500, tokenDtype: "uint32", segmentDtype: "uint32", emit: [] });
+    const rows = 2300; // 256 → 1024 → 1500 rows, a full shard, then 800 more
     for (let r = 0; r < rows; r++) {
       w.addRow(Uint32Array.from({ length: L }, (_, i) => r * L + i), new Uint32Array(L).fill(1 + (r % 3)));
       if (w.pending > 0) await w.writePending();
     }
     await w.finish();
-    expect(w.stats.shards.map((s) => s.blocks)).toEqual([150, 80]);
+    expect(w.stats.shards.map((s) => s.blocks)).toEqual([1500, 800]);
     const tokens = [...npyBody(join(dir, "train/000000.tokens.npy")), ...npyBody(join(dir, "train/000001.tokens.npy"))];
     expect(tokens).toEqual(Array.from({ length: rows * L }, (_, i) => i));
     const segments = npyBody(join(dir, "train/000001.segments.npy"));
-    expect(segments[0]).toBe(1 + (150 % 3));
+    expect(segments[0]).toBe(1 + (1500 % 3));
   });
 });
