@@ -73,20 +73,40 @@ const REPORT_MS = 200;
  * The meter one phase's tasks report to. `bytes`/`records` add what was handled; `reading` names
  * a file being streamed (its descriptor's offset counts until `bytes` takes the whole file).
  */
-export class PhaseMeter {
+/** Reports a phase's progress to a listener: at most every REPORT_MS, or when forced. */
+abstract class Reporting {
+  private last = 0;
+
+  constructor(
+    protected readonly finished: PhaseTiming[],
+    private readonly listener: ProgressListener | undefined,
+  ) {}
+
+  protected abstract current(): PhaseProgress;
+
+  protected report(force: boolean): void {
+    if (!this.listener) return;
+    const now = Date.now();
+    if (!force && now - this.last < REPORT_MS) return;
+    this.last = now;
+    this.listener({ current: this.current(), finished: [...this.finished] });
+  }
+}
+
+export class PhaseMeter extends Reporting {
   private bytesDone = 0;
   private recordsDone = 0;
   private tasksDone = 0;
-  private last = 0;
   private file: { path: string; start: number; size: number } | undefined;
   private readonly started = Date.now();
 
   constructor(
     private readonly info: { phase: string; index: number; phases: number; tasks: number; bytesTotal: number },
-    private readonly finished: PhaseTiming[],
-    private readonly listener: ProgressListener | undefined,
+    finished: PhaseTiming[],
+    listener: ProgressListener | undefined,
     private readonly offset: (file: string) => number | undefined = offsetIn,
   ) {
+    super(finished, listener);
     this.report(true);
   }
 
@@ -119,7 +139,7 @@ export class PhaseMeter {
     return t;
   }
 
-  private current(): PhaseProgress {
+  protected current(): PhaseProgress {
     let inFile = 0;
     if (this.file) {
       const at = this.offset(this.file.path);
@@ -129,13 +149,6 @@ export class PhaseMeter {
     return { phase, index, phases, tasks, tasksDone: this.tasksDone, bytesTotal, bytesDone: Math.min(bytesTotal, this.bytesDone + inFile), records: this.recordsDone };
   }
 
-  private report(force: boolean): void {
-    if (!this.listener) return;
-    const now = Date.now();
-    if (!force && now - this.last < REPORT_MS) return;
-    this.last = now;
-    this.listener({ current: this.current(), finished: [...this.finished] });
-  }
 }
 
 /**
@@ -143,17 +156,17 @@ export class PhaseMeter {
  * in this thread or a task thread), summed here; the phase's line in the closing table once all
  * are done.
  */
-export class PhaseTally {
+export class PhaseTally extends Reporting {
   private readonly byTask = new Map<number, PhaseProgress>();
   private tasksDone = 0;
-  private last = 0;
   private readonly started = Date.now();
 
   constructor(
     private readonly info: { phase: string; index: number; phases: number; tasks: number; bytesTotal: number },
-    private readonly finished: PhaseTiming[],
-    private readonly listener: ProgressListener | undefined,
+    finished: PhaseTiming[],
+    listener: ProgressListener | undefined,
   ) {
+    super(finished, listener);
     this.report(true);
   }
 
@@ -169,34 +182,27 @@ export class PhaseTally {
   }
 
   finish(): PhaseTiming {
-    let bytes = 0;
-    let records = 0;
-    for (const c of this.byTask.values()) {
-      bytes += c.bytesDone;
-      records += c.records;
-    }
+    const { bytes, records } = this.sums();
     const t: PhaseTiming = { phase: this.info.phase, tasks: this.info.tasks, seconds: (Date.now() - this.started) / 1000, bytes, records };
     this.finished.push(t);
     this.report(true);
     return t;
   }
 
-  private current(): PhaseProgress {
-    let bytesDone = 0;
+  private sums(): { bytes: number; records: number } {
+    let bytes = 0;
     let records = 0;
     for (const c of this.byTask.values()) {
-      bytesDone += c.bytesDone;
+      bytes += c.bytesDone;
       records += c.records;
     }
-    const { phase, index, phases, tasks, bytesTotal } = this.info;
-    return { phase, index, phases, tasks, tasksDone: this.tasksDone, bytesTotal, bytesDone: Math.min(bytesTotal, bytesDone), records };
+    return { bytes, records };
   }
 
-  private report(force: boolean): void {
-    if (!this.listener) return;
-    const now = Date.now();
-    if (!force && now - this.last < REPORT_MS) return;
-    this.last = now;
-    this.listener({ current: this.current(), finished: [...this.finished] });
+  protected current(): PhaseProgress {
+    const { bytes, records } = this.sums();
+    const { phase, index, phases, tasks, bytesTotal } = this.info;
+    return { phase, index, phases, tasks, tasksDone: this.tasksDone, bytesTotal, bytesDone: Math.min(bytesTotal, bytes), records };
   }
+
 }

@@ -140,7 +140,8 @@ describe("analysis steps: cut into groups and partitions, the one-pass figures",
       { numRuns: RUNS },
     );
     // The generator must make the cases a cut could get wrong, or the property would hold vacuously.
-    expect(seen.cut).toBeGreaterThan(RUNS / 3);
+    // About a third of the runs are cut in two or more groups; RUNS / 3 itself failed once by chance (20 of 60).
+    expect(seen.cut).toBeGreaterThan(RUNS / 5);
     for (const key of ["ngrams", "exact", "nearTrain", "nearHeld", "short", "threeHeld"] as const) expect(seen[key], key).toBeGreaterThan(RUNS / 20);
   });
 
