@@ -255,6 +255,8 @@ export interface ReadOptions {
   records?: boolean;
   /** Records of rows (`seq`) below this are passed over without being decoded. */
   fromSeq?: number;
+  /** Records with their row, line, id, source and file only: no text, meta, split, cluster or token ids (an id check's read). */
+  bare?: boolean;
 }
 
 function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
@@ -267,6 +269,10 @@ function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
     const id = f.str();
     const source = f.str();
     const file = f.str();
+    if (o?.bare) {
+      const textBytes = f.skip();
+      return { k: "rec", r: { id, source, text: "", textBytes, meta: {}, origin: { file, line }, seq } };
+    }
     const mode = o?.text ?? true;
     const utf8 = mode === "utf8" ? f.bytes() : undefined;
     const textBytes = mode === false ? f.skip() : utf8 ? utf8.length : 0;

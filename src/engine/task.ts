@@ -304,7 +304,7 @@ async function dirBytes(dir: string): Promise<number> {
 async function collectIds(env: TaskEnv, u: number, sources: Set<string>, c: Awaited<ReturnType<typeof collectUnit>>): Promise<void> {
   try {
     if (sources.has(env.units[u].source.name))
-      for await (const e of readEvents(unitsFile(env.plan.workDir, "read", u), { text: false })) {
+      for await (const e of readEvents(unitsFile(env.plan.workDir, "read", u), { bare: true })) {
         if (e.k === "rec") await c.add(e.r);
         else if (e.k === "drop") await c.add({ id: e.id, source: e.source, seq: e.i } as DocRecord);
       }

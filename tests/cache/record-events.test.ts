@@ -72,6 +72,17 @@ describe("record frames", () => {
           });
           expect(got).toEqual(want);
         }
+        // Bare: a record's numbering and names only; from a row on: earlier records passed over, other events kept.
+        const from = Math.floor(rows / 2);
+        const bare: UnitEvent[] = [];
+        for await (const e of readEvents(path, { bare: true, fromSeq: from })) bare.push(e);
+        const wantBare = [...events, end].flatMap((e): UnitEvent[] => {
+          if (e.k !== "rec") return [e];
+          if (e.r.seq < from) return [];
+          const { id, source, origin, seq } = e.r;
+          return [{ k: "rec", r: { id, source, text: "", textBytes: Buffer.byteLength(e.r.text, "utf8"), meta: {}, origin, seq } }];
+        });
+        expect(bare).toEqual(wantBare);
       }),
       { numRuns: 60 },
     );
