@@ -134,8 +134,8 @@ export async function planByBuckets(m: MixtureConfig, names: string[], file: str
       continue;
     }
     // Every record of the earlier buckets is taken; within the crossing bucket, by rank as pickExtra does over a whole source.
-    const p = pickExtra(c.entries, rests.rest.get(name)! - c.before, (c.k + 1) / count);
-    picks.set(name, { used: c.before + p.used, documents: c.documents + p.documents, cut: p.cut });
+    const p = pickExtra(c.entries, rests.rest.get(name)! - c.before, (c.k + 1) / count, c.k / count);
+    picks.set(name, { used: c.before + p.used, documents: c.documents + p.documents, cut: p.cut, ...(p.partial ? { partial: p.partial } : {}) });
   }
   return planFrom(m, names, totals, rests, picks);
 }

@@ -29,6 +29,8 @@ export interface SourceMixture {
   /** Whole repeats every record gets; records of rank below `cut` get one more. */
   whole: number;
   cut: number;
+  /** The record of rank `rank` (the one that crosses the rest) gets one more copy in part: its first `tokens` tokens. */
+  partial?: { rank: number; tokens: number };
   /** Records that get the extra copy, and tokens used in all. */
   extra_documents: number;
   tokens_used: number;
@@ -56,9 +58,14 @@ export function mixtureRank(source: string, id: string, seed: number): number {
   return unitHash(`${source}\u0000${id}`, (seed ^ RANK_SALT) >>> 0);
 }
 
-/** How many times a train record of a source with rank `rank` enters train under the plan. */
+/** How many times a train record of a source with rank `rank` enters train whole under the plan. */
 export function copiesOf(s: SourceMixture, rank: number): number {
   return s.whole + (rank < s.cut ? 1 : 0);
+}
+
+/** The tokens of the one part copy a record of rank `rank` gets (its first ones), or 0. */
+export function partOf(s: SourceMixture, rank: number): number {
+  return s.partial !== undefined && s.partial.rank === rank ? s.partial.tokens : 0;
 }
 
 /** A source's train figures, each document once. */
@@ -67,11 +74,12 @@ export interface SourceTotals {
   documents: number;
 }
 
-/** The extra copies of one source: tokens and documents taken, and the rank below which records are taken. */
+/** The extra copies of one source: tokens and documents taken, the rank below which records are taken, and the part copy. */
 export interface Pick {
   used: number;
   documents: number;
   cut: number;
+  partial?: { rank: number; tokens: number };
 }
 
 /**
@@ -122,7 +130,7 @@ export function planFrom(m: MixtureConfig, sourceNames: string[], totals: Map<st
     const whole = r.whole.get(name)!;
     const pick = picks.get(name)!;
     const used = whole * avail + pick.used;
-    sources.push({ source: name, ...(p.group ? { group: p.group } : {}), share: p.share, tokens_available: avail, documents: totals.get(name)?.documents ?? 0, tokens_asked: p.tokens_asked, whole, cut: pick.cut, extra_documents: pick.documents, tokens_used: used, achieved_share: 0, epochs: avail === 0 ? 0 : used / avail });
+    sources.push({ source: name, ...(p.group ? { group: p.group } : {}), share: p.share, tokens_available: avail, documents: totals.get(name)?.documents ?? 0, tokens_asked: p.tokens_asked, whole, cut: pick.cut, ...(pick.partial ? { partial: pick.partial } : {}), extra_documents: pick.documents, tokens_used: used, achieved_share: 0, epochs: avail === 0 ? 0 : used / avail });
   }
   const total = sources.reduce((a, s) => a + s.tokens_used, 0);
   for (const s of sources) s.achieved_share = total === 0 ? 0 : s.tokens_used / total;
@@ -187,24 +195,32 @@ export function overMessage(m: MixtureConfig, budget: number, over: AskedTokens[
 }
 
 /**
- * The records that get one more copy: in rank order, up to the document whose tokens cross `rest`;
- * that document is taken or not, whichever is nearer `rest` (so each source is within half of one
- * document of its tokens asked). Records of equal rank (a 53-bit hash collision) go together. `cut`
- * is the rank of the first record not taken, or `end` when all are (ranks are below 1).
+ * The records that get one more copy: in rank order, whole up to the document whose tokens cross
+ * `rest` (rounded to a whole token); that document gets its copy in part, its first tokens up to
+ * `rest`, so each source gets exactly its tokens asked and the total is the budget (within half a
+ * token per source). Records of equal rank (a 53-bit hash collision) go together and are never cut:
+ * such a group is taken or not, whichever is nearer `rest`. `cut` is the rank of the first record
+ * not taken whole, or `end` when all are (ranks are below 1); `start` when the list is empty and
+ * nothing is taken (the lowest rank the list could hold).
  */
-export function pickExtra(entries: TallyEntry[], rest: number, end = 1): Pick {
+export function pickExtra(entries: TallyEntry[], rest: number, end = 1, start = 0): Pick {
   const sorted = [...entries].sort((a, b) => a.rank - b.rank || a.tokens - b.tokens);
-  if (rest <= 0 || sorted.length === 0) return { used: 0, cut: 0, documents: 0 };
+  const target = Math.round(rest);
+  // Nothing of these records: the cut is below them all (records of lower ranks, in earlier buckets, stay taken).
+  if (target <= 0 || sorted.length === 0) return { used: 0, cut: sorted.length ? sorted[0].rank : start, documents: 0 };
   let cum = 0;
   let i = 0;
   while (i < sorted.length) {
     let j = i;
     let tokens = 0;
     while (j < sorted.length && sorted[j].rank === sorted[i].rank) tokens += sorted[j++].tokens;
-    if (cum + tokens >= rest) {
-      const lo = cum - rest;
+    if (cum + tokens >= target) {
+      const next = j < sorted.length ? sorted[j].rank : end;
+      if (cum + tokens === target) return { used: target, cut: next, documents: j };
+      if (j - i === 1) return { used: target, cut: sorted[i].rank, documents: j, partial: { rank: sorted[i].rank, tokens: target - cum } };
+      const lo = cum - target;
       const hi = lo + tokens;
-      if (Math.abs(hi) < Math.abs(lo)) return { used: cum + tokens, cut: j < sorted.length ? sorted[j].rank : end, documents: j };
+      if (Math.abs(hi) < Math.abs(lo)) return { used: cum + tokens, cut: next, documents: j };
       return { used: cum, cut: sorted[i].rank, documents: i };
     }
     cum += tokens;

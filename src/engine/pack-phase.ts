@@ -11,7 +11,7 @@ import { collectUnit, KeyedDirs, type Collectors } from "../stages/keyed.js";
 import { dropRecord, readEvents, type UnitEvent } from "../cache/record-events.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { copiesFor } from "./weights.js";
-import { copiesOf as mixtureCopies, mixtureRank } from "./mixture.js";
+import { copiesOf as mixtureCopies, mixtureRank, partOf } from "./mixture.js";
 import { mixtureOf } from "./mixture-tally.js";
 import { Ledger, type LedgerCounts, type TruncatedFile } from "../output/ledger.js";
 import { ShardWriter, type Emit, type SplitStats, type WrittenFile } from "../output/shard-writer.js";
@@ -78,6 +78,11 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
     const w = weights.get(r.source) ?? 1;
     return w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed);
   };
+  // The one record per source whose copy a mixture takes in part (its first tokens), else 0.
+  const partOfRecord = (r: DocRecord) => {
+    const m = bySource.get(r.source);
+    return m?.partial ? partOf(m, mixtureRank(r.source, r.id, config.seed)) : 0;
+  };
   const idsDirs = o.ids === undefined ? undefined : keyedDirs(env, o.ids);
   const feeds: Awaited<ReturnType<typeof collectUnit>>[] = [];
   for (const a of o.analyses) feeds.push(await collectUnit(a.dirs, a.collectors, group.g));
@@ -128,17 +133,20 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         const split = r.split ?? "train";
         // Repetition serves the training mixture only; held-out text is seen once.
         const n = split === "train" ? copiesOf(r) : 1;
+        const part = split === "train" ? partOfRecord(r) : 0;
         crashPoint("records");
-        if (n === 0) {
+        if (n === 0 && part === 0) {
           // A mixture's share below the source's tokens leaves this record out of train (README, Mixtures).
           ledger.dropped(r, "subsampled", { share: +bySource.get(r.source)!.share.toFixed(6) });
           return;
         }
-        ledger.kept(r, n !== 1 ? { copies: n } : {});
+        ledger.kept(r, { ...(n !== 1 ? { copies: n } : {}), ...(part > 0 ? { part_tokens: part } : {}) });
         const { writer, packer } = writerFor(split);
         // Each piece's origin (as the ledger names the record) goes with it into the shard's origins index.
         const origin = { source: r.source, id: r.id, file: r.origin.file, line: r.origin.line };
         for (let c = 0; c < n; c++) packer.add(r.tokens!, c === 0 ? origin : { ...origin, copy: c });
+        // A mixture's part copy: the record's first tokens, as its last copy (README, Mixtures).
+        if (part > 0) packer.add(r.tokens!.subarray(0, part), { ...origin, ...(n > 0 ? { copy: n } : {}), part });
         for (const f of feeds) await f.add(r);
         if (writer.pending > 0) await writer.writePending();
       };

@@ -128,9 +128,10 @@ export class Ledger {
     this.queue.push({ source: r.source, id: r.id, file: r.origin.file, line: r.origin.line, fate: "dropped", reason, ...(detail ? { detail } : {}) });
   }
 
-  kept(r: DocRecord, extra: { copies?: number } = {}): void {
+  /** `copies`: whole copies in train when not 1; `part_tokens`: one more copy of the record's first that many tokens (a mixture's). */
+  kept(r: DocRecord, extra: { copies?: number; part_tokens?: number } = {}): void {
     this.tally(r.source, "kept");
-    this.source(r.source).tokens += (r.tokens?.length ?? 0) * (extra.copies ?? 1);
+    this.source(r.source).tokens += (r.tokens?.length ?? 0) * (extra.copies ?? 1) + (extra.part_tokens ?? 0);
     const split = r.split ?? "train";
     this.counts.by_split[split] = (this.counts.by_split[split] ?? 0) + 1;
     this.queue.push({ source: r.source, id: r.id, file: r.origin.file, line: r.origin.line, fate: "kept", split, tokens: r.tokens?.length ?? 0, ...extra });

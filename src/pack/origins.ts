@@ -9,8 +9,10 @@ export interface SegmentOrigin {
   id: string;
   file: string;
   line: number;
-  /** For a record repeated by its source's weight: which copy (1 = the second); absent for the first. */
+  /** For a record repeated by its source's weight or mixture: which copy (1 = the second); absent for the first. */
   copy?: number;
+  /** A mixture's part copy: it holds the record's first `part` tokens only. */
+  part?: number;
 }
 
 /** One line of the index: a piece of row `row` (of its shard), tokens [start, end) with segment id `segment`. */
@@ -38,6 +40,7 @@ export function originLines(row: number, segments: Uint32Array, pieces: readonly
     if (o === undefined) throw new Error(`row ${row}, segment ${segment}: a document piece without its origin`);
     const line: OriginLine = { row, segment, start, end, offset: pieces[k].offset, source: o.source, id: o.id, file: o.file, line: o.line };
     if (o.copy) line.copy = o.copy;
+    if (o.part) line.part = o.part;
     out += JSON.stringify(line) + "\n";
     start = end;
   }

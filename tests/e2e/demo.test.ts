@@ -52,9 +52,11 @@ describe("demo build", () => {
     expect(r.quarantined).toBeGreaterThan(0);
     const quarantine = readFileSync(join(out, "quarantine.jsonl"), "utf8").trim().split("\n");
     expect(quarantine.length).toBe(r.quarantined);
-    // kept documents per split equal the manifest's documents (train counts repeats by the mixture)
+    // kept documents per split equal the manifest's documents (train counts repeats by the mixture, and its part copies)
     for (const [split, s] of Object.entries(manifest.splits))
-      expect(lines.filter((l) => l.fate === "kept" && l.split === split).reduce((a, l) => a + (l.copies ?? 1), 0)).toBe(s.documents);
+      expect(lines.filter((l) => l.fate === "kept" && l.split === split).reduce((a, l) => a + (l.copies ?? 1) + (l.part_tokens ? 1 : 0), 0)).toBe(s.documents);
+    // one part copy per source the mixture takes a share of that is not a whole number of its documents
+    expect(lines.filter((l) => l.part_tokens).length).toBe(3);
     // the demo mixture: tickets are subsampled, manuals and notes repeated in train
     expect(lines.filter((l) => l.reason === "subsampled").every((l) => l.source === "tickets")).toBe(true);
     expect(r.by_reason.subsampled).toBeGreaterThan(0);

@@ -154,8 +154,9 @@ describe("best-fit and single on the demo", () => {
 d = sys.argv[1]; m = json.load(open(d + "/manifest.json")); L = m["length"]; eos = m["tokenizer"]["eos_id"]
 res = {}
 for name, s in m["splits"].items():
-    ok = True; pieces = no_eos = no_eos_short = 0
+    ok = True; pieces = no_eos = no_eos_short = part_ends = 0
     for sh in s["shards"]:
+        part = {(o["row"], o["segment"]) for o in map(json.loads, open(d + "/" + sh["origins"])) if "part" in o}
         tok = np.load(d + "/" + sh["tokens"], mmap_mode="r").astype(np.int64)
         seg = np.load(d + "/" + sh["segments"], mmap_mode="r").astype(np.int64)
         tm = np.load(d + "/" + sh["target_mask"], mmap_mode="r")
@@ -177,10 +178,13 @@ for name, s in m["splits"].items():
             ok &= bool((pos[r][s_ != 0] == np.concatenate([np.arange(e - b) for b, e in zip(starts, ends)])).all())
             for b, e in zip(starts, ends):
                 pieces += 1
-                if tok[r, e - 1] != eos:
+                # A mixture's part copy ends where its share does, not at end-of-text.
+                if (r, int(s_[b])) in part and tok[r, e - 1] != eos and e - b != L:
+                    part_ends += 1
+                elif tok[r, e - 1] != eos:
                     no_eos += 1
                     no_eos_short += int(e - b != L)
-    res[name] = {"ok": ok, "pieces": pieces, "cut_here": no_eos, "cut_short": no_eos_short}
+    res[name] = {"ok": ok, "pieces": pieces, "cut_here": no_eos, "cut_short": no_eos_short, "part_ends": part_ends}
 print(json.dumps(res))`,
         [bestFit],
       ),
@@ -189,7 +193,8 @@ print(json.dumps(res))`,
     expect(m.strategy).toBe("best-fit");
     for (const [name, s] of Object.entries(m.splits)) {
       // Every piece that does not end in end-of-text is a full block-length chunk of a long document.
-      expect(report[name]).toEqual({ ok: true, pieces: s.documents + s.targets_lost_to_cuts, cut_here: s.targets_lost_to_cuts, cut_short: 0 });
+      // The mixture's part copies (one per source, in train) end where their share does.
+      expect(report[name]).toEqual({ ok: true, pieces: s.documents + s.targets_lost_to_cuts, cut_here: s.targets_lost_to_cuts, cut_short: 0, part_ends: name === "train" ? 3 : 0 });
     }
   });
 

@@ -52,6 +52,8 @@ interface Kept {
   split: string;
   tokens: number;
   copies?: number;
+  /** A mixture's part copy: one more copy of the record's first that many tokens. */
+  part_tokens?: number;
 }
 
 /** Checks a build's index with NumPy and against its ledger; returns the numbers of rows and pieces. */
@@ -63,12 +65,14 @@ function checkIndex(dir: string): { rows: number; pieces: number } {
     .split("\n")
     .filter((l) => l.includes('"fate":"kept"'))
     .map((l) => JSON.parse(l) as Kept);
-  // Every kept record with tokens is in the index once per copy, its pieces covering its tokens from 0
-  // without gap or overlap, each naming the record's file and line as the ledger does.
+  // Every kept record with tokens is in the index once per copy (a part copy last, covering its part
+  // only), its pieces covering its tokens from 0 without gap or overlap, each naming the record's file
+  // and line as the ledger does.
   const expected = new Set<string>();
   for (const k of kept) {
     if (k.tokens === 0) continue;
-    for (let c = 0; c < (k.copies ?? 1); c++) {
+    const whole = k.copies ?? 1;
+    for (let c = 0; c < whole + (k.part_tokens ? 1 : 0); c++) {
       const key = JSON.stringify([k.split, k.source, k.id, c]);
       expected.add(key);
       const pieces = (got.docs[key] ?? []).sort((a, b) => a[0] - b[0]);
@@ -78,7 +82,7 @@ function checkIndex(dir: string): { rows: number; pieces: number } {
         expect([key, offset, file, line]).toEqual([key, at, k.file, k.line]);
         at += length;
       }
-      expect([key, at]).toEqual([key, k.tokens]);
+      expect([key, at]).toEqual([key, c < whole ? k.tokens : k.part_tokens]);
     }
   }
   expect(Object.keys(got.docs).sort()).toEqual([...expected].sort());

@@ -37,16 +37,17 @@ describe("verify --inputs and the lock check", () => {
   });
 
   it("names a changed input and the split counts that moved", () => {
-    const manual = join(dir, "sample-data/manuals/MN-04-brake-pad-replacement.txt");
-    writeFileSync(manual, readFileSync(manual, "utf8") + "\nAddendum: after fitting new pads, run the brake test twice on the depot test track before release.\n");
+    // A held-out manual: train's tokens are fixed by the mixture's budget, a held-out split's follow its texts.
+    const manual = join(dir, "sample-data/manuals/MN-08-depot-overhead-line-isolation.txt");
+    writeFileSync(manual, readFileSync(manual, "utf8") + "\nAddendum: after isolating the section, fit the earthing poles at both ends before anyone climbs.\n");
     const v = siftpack(["verify", join(dir, "build/demo"), "--inputs"]);
     expect(v.code).toBe(1);
-    expect(v.stderr).toMatch(/input \.\.\/sample-data\/manuals\/MN-04-brake-pad-replacement\.txt \(source manuals\): changed: \d+ bytes/);
+    expect(v.stderr).toMatch(/input \.\.\/sample-data\/manuals\/MN-08-depot-overhead-line-isolation\.txt \(source manuals\): changed: \d+ bytes/);
     const check = siftpack(["run", pipeline, "--lock", lock, "--check"]);
     expect(check.code).toBe(1);
     expect(check.stderr).toMatch(/^siftpack: error: the build differs from .*siftpack\.lock\.json in \d+ ways/);
-    expect(check.stderr).toMatch(/input changed: \.\.\/sample-data\/manuals\/MN-04-brake-pad-replacement\.txt \(source manuals\)/);
-    expect(check.stderr).toMatch(/split (train|val|test): tokens \d+ → \d+ \(\+\d+\)/);
+    expect(check.stderr).toMatch(/input changed: \.\.\/sample-data\/manuals\/MN-08-depot-overhead-line-isolation\.txt \(source manuals\)/);
+    expect(check.stderr).toMatch(/split val: tokens \d+ → \d+ \(\+\d+\)/);
     expect(check.stderr).toMatch(/build_hash: [0-9a-f]{16} → [0-9a-f]{16}/);
   });
 
