@@ -48,13 +48,15 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     range: unit.range ?? null,
     part: part?.xxh64 ?? null,
     unit: "read",
-    // Bumped when what reading a file yields changes within a version (2: record frames, truncated files counted as loss; 3: default ids named by file and line).
-    reading: 3,
+    // Bumped when what reading a file yields changes within a version (2: record frames, truncated files counted as loss; 3: default ids named by file and line; 4: a part keyed by its own bytes).
+    reading: 4,
     siftpack: toolVersion(),
     source: spec,
     file: unit.path,
-    size: unit.size,
-    xxh64: whole?.xxh64 ?? null,
+    // A part is known by its own bytes alone (its records number their rows and lines from its start):
+    // rows appended to a file leave its earlier parts' entries valid.
+    size: unit.range ? null : unit.size,
+    xxh64: unit.range ? null : (whole?.xxh64 ?? null),
     seed: p.config.seed,
     // What a stage depends on beyond its options (a tokenizer file's content) is part of the key.
     prefix: entries.map((e) => ({ [e.name]: e.options, ...(STAGES[e.name].identity ? { identity: STAGES[e.name].identity!(e.options, p.baseDir) } : {}) })),
