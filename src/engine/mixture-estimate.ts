@@ -9,7 +9,7 @@ import { outputSettings } from "../stages/output-settings.js";
 import { loadEncoding } from "../tokenizer/index.js";
 import type { CheckedPipeline } from "../pipeline/preflight.js";
 import type { Encoder } from "../tokenizer/encoder.js";
-import { askedTokens, EPOCH_WARNING, overMessage } from "./mixture.js";
+import { askedTokens, EPOCH_WARNING, epochWarning, overMessage, REPEAT_FINDING } from "./mixture.js";
 
 /** Records sampled per source at least (whole files are read until there are this many): our choice, small enough for `plan` to stay quick; not a measured bound on the estimate's error. */
 export const SAMPLE_RECORDS = 200;
@@ -93,7 +93,7 @@ export async function estimateMixture(p: CheckedPipeline): Promise<MixtureEstima
   const warnings = [...skipped, ...a.problems];
   const over = a.sources.filter((s) => s.factor > m.max_epochs);
   if (over.length) warnings.push(`by this estimate, ${overMessage(m, a.budget, over)}`);
-  for (const s of a.sources) if (s.factor > EPOCH_WARNING && s.factor <= m.max_epochs) warnings.push(`by this estimate, source "${s.source}" would be seen ${s.factor.toFixed(2)} times (epochs), more than ${EPOCH_WARNING}: returns from repeated data fall off after about four epochs (Muennighoff et al. 2023, "Scaling Data-Constrained Language Models")`);
+  for (const s of a.sources) if (s.factor > EPOCH_WARNING && s.factor <= m.max_epochs) warnings.push(`by this estimate, ${epochWarning(s.source, s.factor, "would be seen")}, more than ${EPOCH_WARNING}: ${REPEAT_FINDING}`);
   return {
     tokenizer: trained ? "gpt2 (standing in for the tokenizer the build trains)" : encoder.name,
     train_fraction: trainFraction,

@@ -6,12 +6,11 @@ import { readFile } from "node:fs/promises";
 import { join } from "node:path";
 import { SiftpackError } from "../errors.js";
 import { defaultId } from "../sources/source.js";
-import { readEvents } from "../cache/record-events.js";
 import type { DocRecord } from "../types.js";
 import type { MixtureConfig } from "../pipeline/config.js";
 import { mixtureRank, pickExtra, planFrom, restsOf, type MixturePlan, type Pick, type TallyEntry } from "./mixture.js";
 import { IDS_CHECK, type Phase, type PhasePlan } from "./plan.js";
-import { keyedDirs, sourceOf, unitFixes, unitsFile, type TaskEnv } from "./unit-io.js";
+import { keyedDirs, sourceOf, unitFixes, type TaskEnv } from "./unit-io.js";
 import { unitName, writeAtomic } from "./workdir.js";
 
 /** rank (f64), tokens, row as written, line as written (u32 each). */
@@ -24,6 +23,11 @@ export function tallyPhase(plan: PhasePlan, hasMixture: boolean): Phase | undefi
   if (!hasMixture) return undefined;
   const k = plan.phases.findIndex((ph) => ph.does.kind === "pack");
   return sourceOf(plan, k).from;
+}
+
+/** Whether the phase at work in `env` writes the mixture's tallies (a mixture, and packing reads this phase's records). */
+export function talliesHere(env: TaskEnv): boolean {
+  return tallyPhase(env.plan, env.p.config.mixture !== undefined)?.name === env.phase.name;
 }
 
 /** One unit's train records, as the tallying phase writes them. */
@@ -51,13 +55,6 @@ export class TallyWriter {
   async write(work: string, phase: string, u: number): Promise<void> {
     await writeAtomic(tallyFile(work, phase, u), this.buf.subarray(0, this.n * ENTRY));
   }
-}
-
-/** The read phase's tally of unit u, from its unit file (the records are framed in worker threads). */
-export async function tallyReadUnit(env: TaskEnv, u: number): Promise<void> {
-  const w = new TallyWriter(env.p.config.seed);
-  for await (const e of readEvents(unitsFile(env.plan.workDir, "read", u), { text: false })) if (e.k === "rec") w.add(e.r);
-  await w.write(env.plan.workDir, "read", u);
 }
 
 const plans = new WeakMap<TaskEnv, Promise<MixturePlan | undefined>>();

@@ -134,10 +134,16 @@ export function planFrom(m: MixtureConfig, sourceNames: string[], totals: Map<st
   }
   const total = sources.reduce((a, s) => a + s.tokens_used, 0);
   for (const s of sources) s.achieved_share = total === 0 ? 0 : s.tokens_used / total;
-  const warnings = sources
-    .filter((s) => s.epochs > EPOCH_WARNING)
-    .map((s) => `source "${s.source}" is seen ${s.epochs.toFixed(2)} times (epochs) in train, more than ${EPOCH_WARNING}: returns from repeated data fall off after about four epochs (Muennighoff et al. 2023, "Scaling Data-Constrained Language Models"); give it a smaller share or add data`);
+  const warnings = sources.filter((s) => s.epochs > EPOCH_WARNING).map((s) => `${epochWarning(s.source, s.epochs, "is seen")} in train, more than ${EPOCH_WARNING}: ${REPEAT_FINDING}; give it a smaller share or add data`);
   return { train_tokens: r.asked.budget, budget_from: m.train_tokens !== undefined ? "asked" : "largest without repetition", tokens_used: total, max_epochs: m.max_epochs, sources, warnings };
+}
+
+/** The finding behind the epoch warning (cited from memory). */
+export const REPEAT_FINDING = 'returns from repeated data fall off after about four epochs (Muennighoff et al. 2023, "Scaling Data-Constrained Language Models")';
+
+/** `source "B" is seen 4.25 times (epochs)`: how often a source is repeated, in a warning's words. */
+export function epochWarning(source: string, epochs: number, verb: "is seen" | "would be seen"): string {
+  return `source "${source}" ${verb} ${epochs.toFixed(2)} times (epochs)`;
 }
 
 /** One source's asked figures: its share, the tokens asked and the factor over its tokens available. */

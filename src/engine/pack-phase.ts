@@ -72,16 +72,15 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
   // With a mixture, a train record's copies come from the plan made of every unit's token figures.
   const mixture = await mixtureOf(env);
   const bySource = new Map((mixture?.sources ?? []).map((s) => [s.source, s]));
-  const copiesOf = (r: DocRecord) => {
+  // A train record's whole copies, and the tokens of its part copy (a mixture's one record per source whose copy is cut), from one draw.
+  const trainCopies = (r: DocRecord): { whole: number; part: number } => {
     const m = bySource.get(r.source);
-    if (m) return mixtureCopies(m, mixtureRank(r.source, r.id, config.seed));
+    if (m) {
+      const rank = mixtureRank(r.source, r.id, config.seed);
+      return { whole: mixtureCopies(m, rank), part: partOf(m, rank) };
+    }
     const w = weights.get(r.source) ?? 1;
-    return w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed);
-  };
-  // The one record per source whose copy a mixture takes in part (its first tokens), else 0.
-  const partOfRecord = (r: DocRecord) => {
-    const m = bySource.get(r.source);
-    return m?.partial ? partOf(m, mixtureRank(r.source, r.id, config.seed)) : 0;
+    return { whole: w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed), part: 0 };
   };
   const idsDirs = o.ids === undefined ? undefined : keyedDirs(env, o.ids);
   const feeds: Awaited<ReturnType<typeof collectUnit>>[] = [];
@@ -132,8 +131,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       const keep = async (r: DocRecord) => {
         const split = r.split ?? "train";
         // Repetition serves the training mixture only; held-out text is seen once.
-        const n = split === "train" ? copiesOf(r) : 1;
-        const part = split === "train" ? partOfRecord(r) : 0;
+        const { whole: n, part } = split === "train" ? trainCopies(r) : { whole: 1, part: 0 };
         crashPoint("records");
         if (n === 0 && part === 0) {
           // A mixture's share below the source's tokens leaves this record out of train (README, Mixtures).

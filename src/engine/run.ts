@@ -103,7 +103,7 @@ async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Pr
       const layout = await phaseLayout(p, plan, units, phase.name);
       const tally = new PhaseTally({ phase: phase.name, index: phase.index, phases: plan.phases.length, tasks: phase.tasks, bytesTotal: layout.bytes.reduce((a, b) => a + b, 0) }, finished, opts.onProgress);
       const here = async (i: number, workers: number) => {
-        const r = await runTask(p, phase.name, i, { log: opts.log, workers, plan, buildCache: cache, onProgress: (b) => tally.task(i, b.current), units });
+        const r = await runTask(p, phase.name, i, { log: opts.log, workers, plan, buildCache: cache, onProgress: (b) => tally.task(i, b.current), units, bytesTotal: layout.bytes[i] });
         manifest = r.manifest ?? manifest;
         tally.taskDone();
       };
@@ -114,7 +114,7 @@ async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Pr
       } else {
         // Tasks without a share only leave their markers.
         for (let i = 0; i < phase.tasks; i++) if (!busy.includes(i)) await here(i, 1);
-        await sideBySideTasks(pool, phase.name, busy, threads, cache, tally);
+        await sideBySideTasks(pool, phase.name, busy.map((i) => ({ index: i, bytes: layout.bytes[i] })), threads, cache, tally);
       }
       tally.finish();
     }
@@ -136,25 +136,26 @@ async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Pr
 }
 
 /**
- * Runs tasks `busy` of a phase in the task threads, as many at a time as there are threads, each
+ * Runs the tasks `busy` of a phase (with the bytes each will read) in the task threads, as many at a time as there are threads, each
  * taking the next when it ends. After a failure no further task starts; the error of the lowest
  * task index is thrown once the running ones have ended, so a build with bad input reports the
  * same error however the tasks were timed.
  */
-async function sideBySideTasks(pool: TaskThreads, phase: string, busy: number[], threads: number, cache: BuildCache, tally: PhaseTally): Promise<void> {
+async function sideBySideTasks(pool: TaskThreads, phase: string, busy: { index: number; bytes: number }[], threads: number, cache: BuildCache, tally: PhaseTally): Promise<void> {
   const queue = [...busy];
   const lanes = Math.min(pool.size, busy.length);
   const workers = Math.max(1, Math.floor(threads / lanes));
   const errors = new Map<number, unknown>();
   const lane = async () => {
-    for (let i = queue.shift(); i !== undefined && errors.size === 0; i = queue.shift()) {
+    for (let t = queue.shift(); t !== undefined && errors.size === 0; t = queue.shift()) {
+      const { index, bytes } = t;
       try {
-        const r = await pool.run({ phase, index: i, workers }, (c) => tally.task(i!, c));
+        const r = await pool.run({ phase, index, workers, bytes }, (c) => tally.task(index, c));
         cache.absorb(r.used, r.done.cache);
         tally.taskDone();
       } catch (err) {
         cache.absorb((err as { used?: string[] }).used ?? [], undefined);
-        errors.set(i, err);
+        errors.set(index, err);
       }
     }
   };

@@ -28,7 +28,7 @@ const log: Logger = { info: line("info"), warn: line("warn"), error: line("error
 
 port.on("message", async (req: TaskRequest) => {
   try {
-    const r = await runTask(init.p, req.phase, req.index, { log, workers: req.workers, plan, buildCache: cache, units: init.units, onProgress: (b) => post({ t: "progress", current: b.current }) });
+    const r = await runTask(init.p, req.phase, req.index, { log, workers: req.workers, bytesTotal: req.bytes, plan, buildCache: cache, units: init.units, onProgress: (b) => post({ t: "progress", current: b.current }) });
     post({ t: "done", done: r.done, used: cache.takeUsed() });
   } catch (err) {
     post({ t: "error", error: errorData(err), used: cache.takeUsed() });

@@ -25,6 +25,8 @@ export interface TaskRequest {
   index: number;
   /** Threads the task may use for its own per-record pools (1: everything in the task's thread). */
   workers: number;
+  /** The bytes it will read, as the run's phaseLayout measured them. */
+  bytes: number;
 }
 
 export type TaskMessage =

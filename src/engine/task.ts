@@ -21,7 +21,7 @@ import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
 import { PhaseMeter, type ProgressListener } from "./progress.js";
 import { packGroup, analysisDirs } from "./pack-phase.js";
-import { TallyWriter, tallyPhase, tallyReadUnit } from "./mixture-tally.js";
+import { TallyWriter, talliesHere } from "./mixture-tally.js";
 import { IDS_CHECK } from "./plan.js";
 import { sourcesToCheck, uniqueIdsForm } from "./unique-ids.js";
 import { outputSettings } from "../stages/output-settings.js";
@@ -43,6 +43,8 @@ export interface TaskOptions {
   onProgress?: ProgressListener;
   /** Shared across the tasks of one local run, so its report covers them all. */
   buildCache?: BuildCache;
+  /** The bytes the task will read, when the caller has measured them already (a local run's phaseLayout). */
+  bytesTotal?: number;
   /** The units of work, when the caller has listed them already (a local run lists them once). */
   units?: Unit[];
 }
@@ -107,7 +109,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const out = outputSettings(p.config.stages, p.baseDir);
   const groups = groupsOf(p, units, done.get(plan.phases[0].name));
   const share = shareOf(index, phase.tasks, itemsOf(plan, k, units, groups));
-  const bytesTotal = await phaseBytes(plan, units, groups, k, share);
+  const bytesTotal = opts.bytesTotal ?? (await phaseBytes(plan, units, groups, k, share));
   const meter = new PhaseMeter({ phase: phase.name, index: k, phases: plan.phases.length, tasks: 1, bytesTotal }, [], opts.onProgress);
   const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads, meter };
   // The analyses' files: collected per group by the pack phase, joined per partition by the analysis phase.
@@ -137,8 +139,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
           const r = await readUnit(env, u, does.entries, pool, cache);
           for (const [name, n] of Object.entries(r.counts)) count(name, n);
           unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines };
-          if (tallyPhase(plan, p.config.mixture !== undefined)?.name === phase.name) await tallyReadUnit(env, u);
-          if (ids) await collectIds(env, u, check, await collectUnit(ids.dirs, ids.collectors, u));
+          await rereadUnit(env, u, talliesHere(env), ids ? { c: await collectUnit(ids.dirs, ids.collectors, u), feed: check.has(units[u].source.name) } : undefined);
         }
       } finally {
         await pool.close();
@@ -263,7 +264,7 @@ async function passUnit(env: TaskEnv, u: number, stages: PassStages, count: (nam
   const ctx: StageContext = { seed: env.p.config.seed, log: env.log, workDir: phaseDir(work, env.phase.name), addOutputFile: () => {}, count, drop: (r, reason, detail) => out.drop(r, reason, detail) };
   const summaries: unknown[] = [];
   // When packing reads this pass's records, the unit's train figures for the mixture are gathered here.
-  const tally = tallyPhase(env.plan, env.p.config.mixture !== undefined)?.name === env.phase.name ? new TallyWriter(env.p.config.seed) : undefined;
+  const tally = talliesHere(env) ? new TallyWriter(env.p.config.seed) : undefined;
   try {
     for await (const r of stages.run(recordsBefore(env, env.phase.index, u, ctx), ctx, summaries, env.units[u].range)) {
       tally?.add(r);
@@ -300,17 +301,27 @@ async function dirBytes(dir: string): Promise<number> {
   return n;
 }
 
-/** Feeds the ids of unit u's records and drops (rows of the unit itself) to the explicit-id check. */
-async function collectIds(env: TaskEnv, u: number, sources: Set<string>, c: Awaited<ReturnType<typeof collectUnit>>): Promise<void> {
+/**
+ * What needs a read unit's records once its file is written, in one pass over that file: the
+ * explicit-id check (`ids`: fed the ids of the records and drops when `feed`, rows of the unit
+ * itself) and the mixture's tally (`tally`: when the read phase is the one packing reads).
+ */
+async function rereadUnit(env: TaskEnv, u: number, tally: boolean, ids: { c: Awaited<ReturnType<typeof collectUnit>>; feed: boolean } | undefined): Promise<void> {
+  const writer = tally ? new TallyWriter(env.p.config.seed) : undefined;
+  const feed = ids?.feed ? ids.c : undefined;
   try {
-    if (sources.has(env.units[u].source.name))
-      for await (const e of readEvents(unitsFile(env.plan.workDir, "read", u), { bare: true })) {
-        if (e.k === "rec") await c.add(e.r);
-        else if (e.k === "drop") await c.add({ id: e.id, source: e.source, seq: e.i } as DocRecord);
+    if (writer || feed)
+      // Bare records serve the id check; the tally needs each record's split and token ids too.
+      for await (const e of readEvents(unitsFile(env.plan.workDir, "read", u), writer ? { text: false } : { bare: true })) {
+        if (e.k === "rec") {
+          writer?.add(e.r);
+          await feed?.add(e.r);
+        } else if (e.k === "drop") await feed?.add({ id: e.id, source: e.source, seq: e.i } as DocRecord);
       }
-    await c.finish();
+    await writer?.write(env.plan.workDir, "read", u);
+    await ids?.c.finish();
   } catch (err) {
-    await c.abort();
+    await ids?.c.abort();
     throw err;
   }
 }

@@ -45,7 +45,7 @@ export async function unitsOf(p: LoadedPipeline): Promise<Unit[]> {
       const { size } = await stat(abs).catch((err) => {
         throw new SiftpackError("SP_INPUT_MISSING", `source "${source.name}": cannot read ${path}: ${describeSystemError(err)}`, { cause: err });
       });
-      if (source.format !== "jsonl" || compressionOf(path) !== "none" || size <= unitBytes) {
+      if (!cuttable(source, path) || size <= unitBytes) {
         units.push({ u: units.length, source, path, size });
         continue;
       }
@@ -58,6 +58,9 @@ export async function unitsOf(p: LoadedPipeline): Promise<Unit[]> {
   }
   return units;
 }
+
+/** A file that can be read in parts cut at line ends: uncompressed JSONL (one record a line, positioned reads). */
+const cuttable = (source: SourceConfig, path: string) => source.format === "jsonl" && compressionOf(path) === "none";
 
 /** Where the parts of a file end: just after the first newline at or past every multiple of `unitBytes`, and at the end. */
 async function lineCuts(path: string, size: number, unitBytes: number): Promise<number[]> {
@@ -220,8 +223,8 @@ export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: St
     if (e.k !== "rec") continue;
     let r: DocRecord | undefined = e.r;
     if (from.does.kind === "read") fixFromRead(env, u, r);
-    // Only the rows asked for (a packing group's share of a large file), before any decision counts them.
-    if (o.rows && r.seq < o.rows.from) continue;
+    // Only the rows asked for (a packing group's share of a large file), before any decision counts
+    // them: rows before them were passed over undecoded (fromSeq), and reading stops past them.
     if (o.rows && r.seq >= o.rows.to) break;
     if (from.does.kind === "read") {
       if (weight !== 1 && copiesFor(weight, `${r.source}\u0000${r.id}`, env.p.config.seed) === 0) {
@@ -316,8 +319,8 @@ export function packGroups(units: Unit[], groupBytes: number, rowsOf?: (u: numbe
     const file = units.slice(at, end);
     at = end;
     const size = file[0].size;
-    // Only a file that can be cut into parts (uncompressed JSONL): a group reads its share of the rows from the parts they lie in.
-    if (size > groupBytes && rowsOf && file[0].source.format === "jsonl" && compressionOf(file[0].path) === "none") {
+    // Only a file that can be cut into parts: a group reads its share of the rows from the parts they lie in.
+    if (size > groupBytes && rowsOf && cuttable(file[0].source, file[0].path)) {
       cur = undefined;
       groups.push(...rowGroups(file, Math.ceil(size / groupBytes), rowsOf, groups.length));
       continue;

@@ -10,7 +10,7 @@ import type { StageEntry } from "../pipeline/config.js";
 import { SiftpackError } from "../errors.js";
 import { FrameWriter } from "../cache/record-events.js";
 import type { DocRecord, StageContext } from "../types.js";
-import { TallyWriter, tallyPhase } from "./mixture-tally.js";
+import { TallyWriter, talliesHere } from "./mixture-tally.js";
 import { dropsFile, recordsBefore, unitFixes, UnitOutput, type TaskEnv } from "./unit-io.js";
 import { writeAtomic } from "./workdir.js";
 import { crashPoint } from "../lib/crash-point.js";
@@ -65,7 +65,7 @@ export async function wholePhase(env: TaskEnv, entries: StageEntry[], count: (na
   let current: { u: number; out: UnitOutput; tally?: TallyWriter } | undefined;
   let next = 0;
   // When packing reads this phase's records, each unit's train figures for the mixture are gathered here.
-  const tallies = tallyPhase(env.plan, env.p.config.mixture !== undefined)?.name === name;
+  const tallies = talliesHere(env);
   const openUpTo = async (u: number) => {
     if (current) {
       await current.tally?.write(work, name, current.u);
