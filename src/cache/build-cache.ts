@@ -6,19 +6,21 @@ import { threadId } from "node:worker_threads";
 import { canonicalJson } from "../lib/canonical-json.js";
 import { hex64, xxh64String } from "../lib/hash.js";
 
-export type UnitKind = "read" | "tokens";
+export type UnitKind = "read" | "tokens" | "step";
 
 export interface CacheReport {
   /** Per kind: units (input files) whose cache entry was found or not; for tokens also records. */
   read: { reused: number; computed: number };
   tokens: { reused: number; computed: number; records_reused: number; records_computed: number };
+  /** Steps after reading (a unit through a pass, a packing group) whose files were linked from the cache, or computed and kept. */
+  steps: { reused: number; computed: number };
   /** The cache folder after the build: entries kept, their bytes, and entries removed as unused (by this or another siftpack version). */
   size: { entries: number; bytes: number; removed: number };
 }
 
 /** An empty report (a build that did not run). */
 export function noCacheReport(): CacheReport {
-  return { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 }, size: { entries: 0, bytes: 0, removed: 0 } };
+  return { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 }, steps: { reused: 0, computed: 0 }, size: { entries: 0, bytes: 0, removed: 0 } };
 }
 
 /** Entries and bytes of the cache folder `dir` as it is now. */
@@ -43,6 +45,8 @@ export class BuildCache {
   /** When false, existing entries are ignored (and replaced): `run --no-cache`. */
   private readonly reuse: boolean;
   private readonly used = new Set<string>();
+  /** Open watches (`watch`): each gets every entry name used while it is open. */
+  private readonly watches = new Set<string[]>();
   readonly report: CacheReport = noCacheReport();
 
   constructor(dir: string, reuse: boolean) {
@@ -66,7 +70,7 @@ export class BuildCache {
   /** The path of a complete entry, if there is one and reuse is on. Marks it as used either way. */
   async lookup(kind: UnitKind, key: string, ext: string): Promise<string | undefined> {
     const p = this.path(kind, key, ext);
-    this.used.add(basename(p));
+    this.use([basename(p)]);
     if (!this.reuse) return undefined;
     return stat(p).then(
       () => p,
@@ -77,10 +81,33 @@ export class BuildCache {
   /** Where to write a new entry; `commit` renames it into place once complete. */
   pending(kind: UnitKind, key: string, ext: string): { tmp: string; commit: () => Promise<void> } {
     const p = this.path(kind, key, ext);
-    this.used.add(basename(p));
+    this.use([basename(p)]);
     // A name of its own per thread too: a local run's tasks run side by side in threads, and two units of the same bytes share a key.
     const tmp = `${p}.${process.pid}-${threadId}.tmp`;
     return { tmp, commit: () => rename(tmp, p) };
+  }
+
+  /** Marks entries (names in the folder) as used by this build, so pruning keeps them. */
+  use(names: Iterable<string>): void {
+    for (const name of names) {
+      this.used.add(name);
+      for (const w of this.watches) w.push(name);
+    }
+  }
+
+  /** Whether a lookup may find entries (false under `run --no-cache`). */
+  get reusing(): boolean {
+    return this.reuse;
+  }
+
+  /** Starts collecting the names of entries used from now on; the returned function stops and gives them. */
+  watch(): () => string[] {
+    const names: string[] = [];
+    this.watches.add(names);
+    return () => {
+      this.watches.delete(names);
+      return [...new Set(names)];
+    };
   }
 
   /** The entries used since the last call (a task thread hands them to the run, which prunes). */
@@ -92,11 +119,13 @@ export class BuildCache {
 
   /** What a task run elsewhere (a task thread, with a cache object of its own) used and counted. */
   absorb(used: string[], report: CacheReport | undefined): void {
-    for (const name of used) this.used.add(name);
+    this.use(used);
     if (!report) return;
     this.report.read.reused += report.read.reused;
     this.report.read.computed += report.read.computed;
     for (const k of ["reused", "computed", "records_reused", "records_computed"] as const) this.report.tokens[k] += report.tokens[k];
+    this.report.steps.reused += report.steps.reused;
+    this.report.steps.computed += report.steps.computed;
   }
 
   /**

@@ -31,7 +31,10 @@ function upToDateLine(hashed: number, m: Manifest): string {
 
 function cacheLine(c: CacheReport, dir: string): string {
   const t = c.tokens;
-  return `cache: read ${c.read.reused} of ${c.read.reused + c.read.computed} files reused; token ids of ${t.records_reused} of ${t.records_reused + t.records_computed} records reused; ${cacheSizeText(c, dir)}\n`;
+  const records = t.records_reused + t.records_computed;
+  // Token ids are looked up only for units whose passes ran: none when every later step was reused.
+  const tokens = records > 0 ? `token ids of ${t.records_reused} of ${records} records reused; ` : "";
+  return `cache: read ${c.read.reused} of ${c.read.reused + c.read.computed} files reused; ${c.steps.reused} of ${c.steps.reused + c.steps.computed} later steps reused; ${tokens}${cacheSizeText(c, dir)}\n`;
 }
 
 /** "24 entries, 489 kB in build/.demo.cache" (and what pruning removed). */

@@ -31,6 +31,8 @@ export interface ReadUnitResult {
   counts: Record<string, number>;
   /** The unit's input could not be read to its end (accepted by the source). */
   truncated?: UnitTruncation;
+  /** The unit file's fingerprint: the cache key of what it was read from. */
+  fp: string;
 }
 
 export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], pool: RecordPool, cache: BuildCache): Promise<ReadUnitResult> {
@@ -81,7 +83,7 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     await linkOrCopy(out, pending.tmp);
     await pending.commit();
   }
-  return { rows: end.rows, records: end.records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts, ...(end.truncated ? { truncated: end.truncated } : {}) };
+  return { rows: end.rows, records: end.records, size: whole?.size, xxh64: whole?.xxh64, lines: part?.lines, counts: end.counts, fp: key, ...(end.truncated ? { truncated: end.truncated } : {}) };
 }
 
 async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: string): Promise<Extract<UnitEvent, { k: "end" }>> {

@@ -11,7 +11,7 @@ import { recordPool } from "../parallel/record-pool.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { Logger, StageContext } from "../types.js";
 import type { Manifest } from "../output/manifest.js";
-import { readdir, stat } from "node:fs/promises";
+import { readdir, rm, stat } from "node:fs/promises";
 import { crashPoint } from "../lib/crash-point.js";
 import { collectUnit, partitionStep, resolveStep, type KeyedDirs, type KeyedForm } from "../stages/keyed.js";
 import { planPhases, shareOf, type PhasePlan } from "./plan.js";
@@ -20,7 +20,9 @@ import { PassStages } from "./pass-phase.js";
 import { wholePhase } from "./whole-phase.js";
 import { assemblePhase } from "./assemble.js";
 import { PhaseMeter, type ProgressListener } from "./progress.js";
-import { packGroup, analysisDirs } from "./pack-phase.js";
+import { packGroup, analysisDirs, groupDir, type PackGroupOptions } from "./pack-phase.js";
+import { StepMemo } from "./step-memo.js";
+import { collectedFiles, filesUnder, packKey, passFiles, passKey, rereadFiles, rereadKey } from "./step-keys.js";
 import { TallyWriter, talliesHere } from "./mixture-tally.js";
 import { IDS_CHECK } from "./plan.js";
 import { sourcesToCheck, uniqueIdsForm } from "./unique-ids.js";
@@ -119,12 +121,38 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   // A pack task removes each of its groups' directories before packing it instead.
   if (phase.does.kind !== "pack") await clearTemporaries(phaseDir(work, phase.name), phase.tasks === 1 ? undefined : share);
   const counts: Record<string, number> = {};
-  const count = (name: string, n = 1) => (counts[name] = (counts[name] ?? 0) + n);
+  // While a step kept in the cache runs, its counters are noted too, to be raised again when it is reused.
+  let stepCounts: Record<string, number> | undefined;
+  const count = (name: string, n = 1) => {
+    counts[name] = (counts[name] ?? 0) + n;
+    if (stepCounts) stepCounts[name] = (stepCounts[name] ?? 0) + n;
+  };
   const unitFacts: TaskDone["units"] = {};
   let files: string[] = [];
   const cache = opts.buildCache ?? new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
   const before: CacheReport = JSON.parse(JSON.stringify(cache.report));
+  const memo = new StepMemo(cache, work, log);
+  /** Runs a step, or links its files from the cache when `key` has an entry there; its result and counters come back either way. */
+  const step = async <M>(key: string | undefined, run: () => Promise<M>, files: () => Promise<string[]>): Promise<M> => {
+    const hit = key === undefined ? undefined : await memo.restore<{ result: M; counts: Record<string, number> }>(key);
+    if (hit) {
+      for (const [name, n] of Object.entries(hit.counts)) count(name, n);
+      return hit.result;
+    }
+    const noted: Record<string, number> = {};
+    stepCounts = noted;
+    const watch = cache.watch();
+    let result: M;
+    try {
+      result = await run();
+    } finally {
+      stepCounts = undefined;
+    }
+    const used = watch();
+    if (key !== undefined) await memo.save(key, await files(), { result, counts: noted }, used);
+    return result;
+  };
   let manifest: Manifest | undefined;
   try {
     log.note({ phase: phase.name, task: index, tasks: phase.tasks }, "task started");
@@ -138,8 +166,15 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
         for (let u = share.from; u < share.to; u++) {
           const r = await readUnit(env, u, does.entries, pool, cache);
           for (const [name, n] of Object.entries(r.counts)) count(name, n);
-          unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines };
-          await rereadUnit(env, u, talliesHere(env), ids ? { c: await collectUnit(ids.dirs, ids.collectors, u), feed: check.has(units[u].source.name) } : undefined);
+          unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines, fp: r.fp };
+          const tally = talliesHere(env);
+          const feed = ids ? check.has(units[u].source.name) : undefined;
+          if (tally || ids)
+            await step(
+              rereadKey(env, u, r.fp, tally, feed),
+              async () => rereadUnit(env, u, tally, ids ? { c: await collectUnit(ids.dirs, ids.collectors, u), feed: feed! } : undefined),
+              () => rereadFiles(env, u),
+            );
         }
       } finally {
         await pool.close();
@@ -151,7 +186,15 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const collectors = steps ? await steps.form.collectors(steps.entry.options, { ...stepContext(env, count), threads }) : undefined;
       const stages = await PassStages.create(does.entries, p.baseDir, p.config.seed, threads, cache);
       try {
-        for (let u = share.from; u < share.to; u++) unitFacts[u] = { records: await passUnit(env, u, stages, count, collectors && dirs ? await collectUnit(dirs, collectors, u) : undefined) };
+        for (let u = share.from; u < share.to; u++) {
+          const key = await passKey(env, u, count);
+          const records = await step(
+            key,
+            async () => passUnit(env, u, stages, count, collectors && dirs ? await collectUnit(dirs, collectors, u) : undefined),
+            () => passFiles(env, u),
+          );
+          unitFacts[u] = { records, ...(key ? { fp: key } : {}) };
+        }
       } finally {
         await stages.close();
         await collectors?.close();
@@ -169,11 +212,17 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       files = r.files;
       for (const [u, n] of r.records) unitFacts[u] = { records: n };
     } else if (does.kind === "pack") {
-      const analyses = [];
+      const analyses: PackGroupOptions["analyses"] = [];
       for (const a of analysisFiles()) analyses.push({ ...a, collectors: await a.steps.collectors(a.ctx, { ...stepContext(env, count), threads }) });
       try {
         for (let g = share.from; g < share.to; g++) {
-          await packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined });
+          const dir = groupDir(work, phase.name, g);
+          await rm(dir, { recursive: true, force: true });
+          await step(
+            await packKey(env, groups[g], count),
+            async () => void (await packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined })),
+            async () => [...(await filesUnder(dir)), ...(await Promise.all(analyses.map((a) => collectedFiles(a.dirs.collect, g)))).flat()],
+          );
         }
       } finally {
         for (const a of analyses) await a.collectors.close();
@@ -197,6 +246,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   }
   const report: CacheReport = {
     read: { reused: cache.report.read.reused - before.read.reused, computed: cache.report.read.computed - before.read.computed },
+    steps: { reused: cache.report.steps.reused - before.steps.reused, computed: cache.report.steps.computed - before.steps.computed },
     tokens: {
       reused: cache.report.tokens.reused - before.tokens.reused,
       computed: cache.report.tokens.computed - before.tokens.computed,

@@ -187,16 +187,34 @@ export function stepContext(env: TaskEnv, count: StageContext["count"]) {
 }
 
 type UnitApplier = (r: DocRecord, ctx: StageContext) => DocRecord | undefined;
-const appliers = new WeakMap<TaskEnv, Map<number, Promise<(u: number) => Promise<UnitApplier>>>>();
+/** A keyed stage's applier, and the paths of the files it read while being prepared (shared results, collected material). */
+interface PreparedApplier {
+  make: (u: number) => Promise<UnitApplier>;
+  read: string[];
+}
+const appliers = new WeakMap<TaskEnv, Map<number, Promise<PreparedApplier>>>();
 
 /** Prepared once per task: every unit's reader applies the same shared results. */
-function applierOf(env: TaskEnv, k: number, count: StageContext["count"]): Promise<(u: number) => Promise<UnitApplier>> {
+export function applierOf(env: TaskEnv, k: number, count: StageContext["count"]): Promise<PreparedApplier> {
   let m = appliers.get(env);
   if (!m) appliers.set(env, (m = new Map()));
   let a = m.get(k);
   if (!a) {
     const steps = env.plan.keyed.get(k)!;
-    m.set(k, (a = keyedApplier(steps.form, steps.entry.options, keyedDirs(env, k), stepContext(env, count))));
+    const dirs = keyedDirs(env, k);
+    const read: string[] = [];
+    // What the applier reads is noted, so a step that applies it can be keyed by those bytes (step-keys.ts).
+    const spy = new Proxy(dirs, {
+      get(t, prop) {
+        const v = Reflect.get(t, prop, t);
+        if (typeof v !== "function") return v;
+        if (prop === "shared") return (name: string, p?: number) => (read.push(t.sharedPath(name, p)), t.shared(name, p));
+        if (prop === "read" || prop === "lines" || prop === "size" || prop === "path")
+          return (name: string, u: number, p?: number) => (read.push(t.path(name, u, p)), v.call(t, name, u, p));
+        return v.bind(t);
+      },
+    });
+    m.set(k, (a = keyedApplier(steps.form, steps.entry.options, spy, stepContext(env, count)).then((make) => ({ make, read }))));
   }
   return a;
 }
@@ -212,7 +230,7 @@ function applierOf(env: TaskEnv, k: number, count: StageContext["count"]): Promi
 export async function* recordsBefore(env: TaskEnv, k: number, u: number, ctx: StageContext, o: { text?: boolean | "utf8"; rows?: { from: number; to: number } } = {}): AsyncGenerator<DocRecord> {
   const { from, keyed } = sourceOf(env.plan, k);
   const apply: UnitApplier[] = [];
-  for (const s of keyed) apply.push(await (await applierOf(env, s, ctx.count))(u));
+  for (const s of keyed) apply.push(await (await applierOf(env, s, ctx.count)).make(u));
   const weight = env.units[u].source.weight;
   const path = unitsFile(env.plan.workDir, from.name, u);
   env.meter.reading(path, 0, await fileSize(path));

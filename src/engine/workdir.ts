@@ -24,8 +24,11 @@ export interface TaskDone {
   tasks: number;
   /** Stage counters raised by the task (summed into the manifest's stage_counts). */
   counts: Record<string, number>;
-  /** Per input file the task handled: rows read (read phase), records written, and (read phase) size and XXH64. */
-  units: Record<string, { rows?: number; records: number; size?: number; xxh64?: string; lines?: number }>;
+  /**
+   * Per input file the task handled: rows read (read phase), records written, (read phase) size and
+   * XXH64, and the fingerprint of the unit file it wrote (step-keys.ts), when it has one.
+   */
+  units: Record<string, { rows?: number; records: number; size?: number; xxh64?: string; lines?: number; fp?: string }>;
   /** Build files the task wrote under <phase>/files/, in order (clusters.jsonl, tokenizer.json, …). */
   files: string[];
   cache?: CacheReport;

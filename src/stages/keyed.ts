@@ -147,12 +147,17 @@ export class KeyedDirs implements KeyedFiles {
     return p === undefined ? join(this.resolveDir!, "decisions", `${unitName(u)}.jsonl`) : join(this.partitionDir, "decisions", partName(p), `${unitName(u)}.jsonl`);
   }
 
+  /** The files that may hold decisions about unit u (one per partition, and the resolve step's). */
+  decisionPaths(u: number): string[] {
+    const paths = Array.from({ length: this.partitions }, (_, p) => this.decisionsPath(u, p));
+    if (this.resolveDir) paths.push(this.decisionsPath(u));
+    return paths;
+  }
+
   /** Every decision about unit u's records, by row. */
   async decisions(u: number): Promise<Map<number, unknown>> {
     const m = new Map<number, unknown>();
-    const paths = Array.from({ length: this.partitions }, (_, p) => this.decisionsPath(u, p));
-    if (this.resolveDir) paths.push(this.decisionsPath(u));
-    for (const path of paths) {
+    for (const path of this.decisionPaths(u)) {
       if ((await stat(path).catch(() => undefined)) === undefined) continue;
       for await (const line of jsonLines(path)) {
         const d = JSON.parse(line) as { i: number; d: unknown };

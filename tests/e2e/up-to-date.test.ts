@@ -39,7 +39,7 @@ describe("run when nothing changed", () => {
     const cacheDir = join(dir, "build/.demo.cache");
     const names = readdirSync(cacheDir);
     expect(json.cache.size).toEqual({ entries: names.length, bytes: names.reduce((a, n) => a + statSync(join(cacheDir, n)).size, 0), removed: 0 });
-    expect(again.stdout).toMatch(new RegExp(`^cache: ${names.length} entries, \\d+ kB in build/\\.demo\\.cache$`, "m"));
+    expect(again.stdout).toMatch(new RegExp(`^cache: ${names.length} entries, [\\d.]+ [kM]B in build/\\.demo\\.cache$`, "m"));
   });
 
   it("keeps in the cache what the last build used: entries of other settings are removed and counted", () => {

@@ -1,0 +1,114 @@
+// Rebuilds after a change reuse the steps the change does not reach (a unit through a pass, a
+// packing group; src/engine/step-memo.ts) and give the bytes of a clean build: files added,
+// removed and changed, a setting changed, and a cache entry edited behind siftpack's back. The demo
+// pipeline has every stage that decides over the whole corpus (exact and near-duplicates, repeated
+// lines, group split, decontamination, the mixture, the overlap figures); its packing groups are
+// made small so that a change leaves some of them as they were.
+import { describe, expect, it } from "vitest";
+import { readdirSync, readFileSync, rmSync, statSync, writeFileSync } from "node:fs";
+import { gzipSync } from "node:zlib";
+import { join } from "node:path";
+import { demoCopy, outputFiles, siftpack } from "./cli.js";
+
+// Task threads even for the demo's small input, so the threads' cache reports are joined too.
+const env = { SIFTPACK_TASK_THREADS_FROM_MB: "0" };
+
+function setup() {
+  const dir = demoCopy();
+  const pipeline = join(dir, "pipelines/demo.yaml");
+  const text = readFileSync(pipeline, "utf8");
+  writeFileSync(pipeline, text.replace(/^( {2}- pack: \{ length: 512, strategy: best-fit,)/m, "$1 group_mb: 0.03,"));
+  expect(readFileSync(pipeline, "utf8")).toContain("group_mb: 0.03");
+  const run = (...extra: string[]) => {
+    const r = siftpack(["run", pipeline, "--json", "--quiet", "--workers", "2", ...extra], { env });
+    expect(r.code, r.stderr).toBe(0);
+    return { steps: JSON.parse(r.stdout).cache.steps as { reused: number; computed: number }, stderr: r.stderr };
+  };
+  /** The bytes a build without any cache makes of the inputs as they are now. */
+  const clean = () => {
+    const out = join(dir, "build/clean");
+    rmSync(out, { recursive: true, force: true });
+    const r = siftpack(["run", pipeline, "--out", out, "--no-cache", "--quiet", "--workers", "1"]);
+    expect(r.code, r.stderr).toBe(0);
+    return outputFiles(out);
+  };
+  return { dir, pipeline, run, clean, built: () => outputFiles(join(dir, "build/demo")) };
+}
+
+/** Invented tickets of a new year at the tram depots. */
+function newTickets(n: number): Buffer {
+  const faults = ["a door that would not close at the terminus", "a pantograph that dropped twice on the viaduct", "a sander that kept running after the car stopped", "a saloon heater that smelled of burning dust"];
+  const lines = [];
+  for (let i = 0; i < n; i++)
+    lines.push(
+      JSON.stringify({
+        ticket_id: `T-2027-${String(i + 1).padStart(4, "0")}`,
+        depot: ["Fennick Road", "Millbrook Yard", "Saltings"][i % 3],
+        year: 2027,
+        body: `Car ${7100 + i} came back to the depot with ${faults[i % faults.length]}. The night fitter ${["traced it to a loose plug", "replaced the relay", "adjusted the limit switch", "cleaned the contacts"][(i * 7) % 4]} and ran ${3 + (i % 5)} test cycles before the car went back out on route ${i % 9}.`,
+      }),
+    );
+  return gzipSync(lines.join("\n") + "\n");
+}
+
+describe("a rebuild reuses what a change does not reach, and builds the bytes of a clean build", () => {
+  it("after files are added, changed and removed, and after a setting changes", () => {
+    const { dir, pipeline, run, clean, built } = setup();
+    const first = run();
+    expect(first.steps.reused).toBe(0);
+    expect(first.steps.computed).toBeGreaterThan(20);
+
+    // A new file of tickets: it sorts last, so the units before it keep their steps.
+    writeFileSync(join(dir, "sample-data/tickets/tickets-2027.jsonl.gz"), newTickets(30));
+    const added = run();
+    expect(added.steps.reused).toBeGreaterThan(0);
+    expect(added.steps.computed).toBeGreaterThan(0);
+    expect(built()).toEqual(clean());
+
+    // One shift note changed in the middle of its file.
+    const notes = join(dir, "sample-data/notes/shift-notes.csv");
+    writeFileSync(notes, readFileSync(notes, "utf8").replace("Pit lights on road 3 flickering", "Pit lights on road 4 flickering"));
+    const changed = run();
+    expect(changed.steps.reused).toBeGreaterThan(0);
+    expect(built()).toEqual(clean());
+
+    // A manual removed.
+    rmSync(join(dir, "sample-data/manuals/MN-07-sanding-system-service.txt"));
+    const removed = run();
+    expect(removed.steps.reused).toBeGreaterThan(0);
+    expect(built()).toEqual(clean());
+
+    // A packing setting: every unit's passes are reused, only the packing groups run again.
+    writeFileSync(pipeline, readFileSync(pipeline, "utf8").replace("length: 512", "length: 384"));
+    const packing = run();
+    expect(packing.steps.reused).toBeGreaterThan(packing.steps.computed);
+    expect(built()).toEqual(clean());
+
+    // Nothing changed but --force: every step comes from the cache.
+    const again = run("--force");
+    expect(again.steps.computed).toBe(0);
+    expect(built()).toEqual(clean());
+  });
+
+  it("a cache entry edited behind siftpack's back is found stale, not used, and made again", () => {
+    const { dir, run, clean, built } = setup();
+    run();
+    const cache = join(dir, "build/.demo.cache");
+    // The largest kept step file (a packing group's shard, or a unit's records): same size, other bytes.
+    const blob = readdirSync(cache)
+      .filter((n) => /^step-[0-9a-f]{16}\.\d+$/.test(n))
+      .map((n) => ({ n, size: statSync(join(cache, n)).size }))
+      .sort((a, b) => b.size - a.size)[0].n;
+    const bytes = readFileSync(join(cache, blob));
+    bytes[bytes.length >> 1] ^= 0xff;
+    // A new file under the entry's name: the build's own hard link to the old one keeps its bytes.
+    rmSync(join(cache, blob));
+    writeFileSync(join(cache, blob), bytes);
+    const r = run("--force");
+    expect(r.stderr).toMatch(new RegExp(`cache entry ${blob.replace(/\.\d+$/, "")} is stale \\(.* changed since it was kept\\)`));
+    expect(r.steps.computed).toBeGreaterThan(0);
+    expect(built()).toEqual(clean());
+    // Made again: the next build reuses every step.
+    expect(run("--force").steps.computed).toBe(0);
+  });
+});
