@@ -18,7 +18,7 @@ import { ShardWriter, type Emit, type SplitStats, type WrittenFile } from "../ou
 import type { AnalysisSteps } from "../analysis/steps.js";
 import type { DocRecord, StageContext } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
-import { dropsFile, fixFromRead, keyedDirs, recordsBefore, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
+import { dropsFile, fixFromRead, keyedDirs, materializes, recordsBefore, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
 
 /** What one group leaves for assemble (group.json). */
 export interface GroupResult {
@@ -109,7 +109,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         }
       }
       for (const ph of plan.phases.slice(1, k)) {
-        if (ph.does.kind !== "pass" && ph.does.kind !== "whole") continue;
+        if (ph.does.kind === "read" || !materializes(ph)) continue;
         for await (const e of readEvents(dropsFile(work, ph.name, u), { records: false })) if (e.k === "drop" && mine(e.i)) fates.push({ i: e.i, drop: dropOf(e) });
       }
       // Drops made while reading (decisions applied now), in row order as the records come.

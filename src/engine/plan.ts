@@ -5,7 +5,8 @@
 //
 //   read        per unit: read, map fields, the leading built-in stages of form `record`
 //   pass-N      per unit: apply the decisions of the keyed steps before, run the stages of form
-//               `record` and `unit` that follow, and collect for the next keyed stage
+//               `record` and `unit` that follow, and collect for the next keyed stage (a pass
+//               without stages only collects, and writes no records: unit-io.ts, materializes)
 //   <keyed>     per partition of keys: a keyed stage's partition step (its name: exact-dups, buckets, lines, …)
 //   <resolve>   one task: a keyed stage's resolve step, when it has one (clusters)
 //   whole-N     one task: consecutive stages of form `whole`, over every record in order
@@ -134,7 +135,8 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
     if (ph.does.kind !== "pass") continue;
     const { entries, collect } = ph.does;
     const parts = [...(entries.length ? [`per unit: ${entries.map((e) => e.name).join(", ")}`] : []), ...(collect !== undefined ? [`collect for ${stages[collect].name}`] : [])];
-    ph.summary = `apply the decisions before; ${parts.join("; ") || "rewrite"}`;
+    // A pass without stages writes no records (unit-io.ts, materializes): it applies the decisions before only for its collector.
+    ph.summary = entries.length ? `apply the decisions before; ${parts.join("; ")}` : `the records with the decisions before, ${parts.join("; ")}; writes no records`;
   }
   return { pipeline: resolve(p.file), workDir: workDirOf(p), outDir: p.outDir, phases, tasks, keyed, analyses };
 }

@@ -30,7 +30,7 @@ import { outputSettings } from "../stages/output-settings.js";
 import { readEvents } from "../cache/record-events.js";
 import { analysisForm } from "../analysis/registry.js";
 import type { DocRecord } from "../types.js";
-import { keyedDirs, packGroups, unitBytes, type PackGroup, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
+import { keyedDirs, materializes, packGroups, unitBytes, type PackGroup, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
 import { clearTemporaries, logPath, markDone, markFailed, markStarted, phaseDir, requireDone, writeAtomic, type TaskDone } from "./workdir.js";
 
 export interface TaskOptions {
@@ -309,6 +309,7 @@ async function partitions<O>(env: TaskEnv, share: { from: number; to: number }, 
 
 /** One unit through a pass: records before it, the pass's stages, the collector; records, drops and summaries written. */
 async function passUnit(env: TaskEnv, u: number, stages: PassStages, count: (name: string, n?: number) => void, collector?: Awaited<ReturnType<typeof collectUnit>>): Promise<number> {
+  if (!materializes(env.phase)) return collectOnly(env, u, collector!);
   const work = env.plan.workDir;
   const out = await UnitOutput.open(work, env.phase.name, u);
   const ctx: StageContext = { seed: env.p.config.seed, log: env.log, workDir: phaseDir(work, env.phase.name), addOutputFile: () => {}, count, drop: (r, reason, detail) => out.drop(r, reason, detail) };
@@ -331,6 +332,28 @@ async function passUnit(env: TaskEnv, u: number, stages: PassStages, count: (nam
     throw err;
   }
   return out.records;
+}
+
+/**
+ * A pass without stages (see `materializes`): the unit's records as they stand go to the collector,
+ * and nothing is written for the next phase. The decisions applied here are applied again, and their
+ * drops and counters recorded, by the next phase that reads these records.
+ */
+async function collectOnly(env: TaskEnv, u: number, collector: Awaited<ReturnType<typeof collectUnit>>): Promise<number> {
+  const ctx: StageContext = { seed: env.p.config.seed, log: env.log, workDir: phaseDir(env.plan.workDir, env.phase.name), addOutputFile: () => {}, count: () => {}, drop: () => {} };
+  let records = 0;
+  try {
+    for await (const r of recordsBefore(env, env.phase.index, u, ctx)) {
+      await collector.add(r);
+      records++;
+      crashPoint("unit-records");
+    }
+    await collector.finish();
+  } catch (err) {
+    await collector.abort();
+    throw err;
+  }
+  return records;
 }
 
 /** Bytes of the collected files of partition `part` (every keyed file name). */

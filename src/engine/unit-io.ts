@@ -162,7 +162,12 @@ export const dropsFile = (work: string, phase: string, u: number) => join(work, 
 /** Per unit: the summaries of a pass's stages of form `unit`, a JSON array by entry. */
 export const summaryFile = (work: string, phase: string, u: number) => join(work, phase, "summaries", `${unitName(u)}.json`);
 
-const materializes = (ph: Phase) => ph.does.kind === "read" || ph.does.kind === "pass" || ph.does.kind === "whole";
+/**
+ * Whether a phase writes its units' records (and drops) for the phases after it. A pass without
+ * stages of its own only collects for the next keyed stage: its records would be the ones before it
+ * with the same decisions applied, so it writes none, and the next reader applies those decisions.
+ */
+export const materializes = (ph: Phase) => ph.does.kind === "read" || ph.does.kind === "whole" || (ph.does.kind === "pass" && ph.does.entries.length > 0);
 
 /** The phase whose unit files hold the records as they stand before phase `k`, and the keyed stages whose decisions came since. */
 export function sourceOf(plan: PhasePlan, k: number): { from: Phase; keyed: number[] } {

@@ -16,8 +16,8 @@ beforeAll(() => {
 
 describe("resume after SIGKILL", () => {
   // A crash point and the phase it kills the build in (its phases before it finished, it did not):
-  // read:N — after the N-th batch of the read phase; unit-records:N — when a pass writes its N-th
-  // record (pass-2 first); partition:N — as the N-th partition step starts (ids, exact-dups,
+  // read:N — after the N-th batch of the read phase; unit-records:N — when a pass takes its N-th
+  // record (pass-2 first, which only collects); partition:N — as the N-th partition step starts (ids, exact-dups,
   // buckets: the third); records:N — when the N-th record reaches the packer (pack);
   // write:N — between the header and the body of the N-th output file written (a shard
   // half-written in a packing group's directory); assemble:N — as the N-th shard file is moved into
