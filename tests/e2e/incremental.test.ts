@@ -6,7 +6,7 @@
 // made small so that a change leaves some of them as they were.
 import { describe, expect, it } from "vitest";
 import { readdirSync, readFileSync, rmSync, statSync, writeFileSync } from "node:fs";
-import { gzipSync } from "node:zlib";
+import { gunzipSync, gzipSync } from "node:zlib";
 import { join } from "node:path";
 import { demoCopy, outputFiles, siftpack } from "./cli.js";
 
@@ -35,8 +35,12 @@ function setup() {
   return { dir, pipeline, run, clean, built: () => outputFiles(join(dir, "build/demo")) };
 }
 
-/** Invented tickets of a new year at the tram depots. */
-function newTickets(n: number): Buffer {
+/**
+ * Invented tickets of a new year at the tram depots; with `echo`, the body of an earlier ticket
+ * twice more, once as it was and once with a word changed: decisions of the exact and near-duplicate
+ * steps about earlier files' records come into play.
+ */
+function newTickets(n: number, echo?: string): Buffer {
   const faults = ["a door that would not close at the terminus", "a pantograph that dropped twice on the viaduct", "a sander that kept running after the car stopped", "a saloon heater that smelled of burning dust"];
   const lines = [];
   for (let i = 0; i < n; i++)
@@ -48,6 +52,7 @@ function newTickets(n: number): Buffer {
         body: `Car ${7100 + i} came back to the depot with ${faults[i % faults.length]}. The night fitter ${["traced it to a loose plug", "replaced the relay", "adjusted the limit switch", "cleaned the contacts"][(i * 7) % 4]} and ran ${3 + (i % 5)} test cycles before the car went back out on route ${i % 9}.`,
       }),
     );
+  if (echo) for (const [k, body] of [echo, echo.replace(/\bthe\b/, "that")].entries()) lines.push(JSON.stringify({ ticket_id: `T-2027-E${k}`, depot: "Saltings", year: 2027, body }));
   return gzipSync(lines.join("\n") + "\n");
 }
 
@@ -59,7 +64,8 @@ describe("a rebuild reuses what a change does not reach, and builds the bytes of
     expect(first.steps.computed).toBeGreaterThan(20);
 
     // A new file of tickets: it sorts last, so the units before it keep their steps.
-    writeFileSync(join(dir, "sample-data/tickets/tickets-2027.jsonl.gz"), newTickets(30));
+    const earlier = JSON.parse(gunzipSync(readFileSync(join(dir, "sample-data/tickets/tickets-2026.jsonl.gz"))).toString("utf8").split("\n")[4]).body as string;
+    writeFileSync(join(dir, "sample-data/tickets/tickets-2027.jsonl.gz"), newTickets(30, earlier));
     const added = run();
     expect(added.steps.reused).toBeGreaterThan(0);
     expect(added.steps.computed).toBeGreaterThan(0);
