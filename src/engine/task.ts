@@ -133,25 +133,46 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   await cache.open();
   const before: CacheReport = JSON.parse(JSON.stringify(cache.report));
   const memo = new StepMemo(cache, work, log);
-  /** Runs a step, or links its files from the cache when `key` has an entry there; its result and counters come back either way. */
-  const step = async <M>(key: string | undefined, run: () => Promise<M>, files: () => Promise<string[]>): Promise<M> => {
-    const hit = key === undefined ? undefined : await memo.restore<{ result: M; counts: Record<string, number> }>(key);
+  /**
+   * Runs a step, or links its files from the cache when `key` has an entry there; its result comes
+   * back either way, and its counters and warnings are raised again when it is reused. `reused`
+   * advances the progress by what the step would have read.
+   */
+  const step = async <M>(key: string | undefined, run: () => Promise<M>, files: () => Promise<string[]>, reused?: () => Promise<void>): Promise<M> => {
+    type Kept = { result: M; counts: Record<string, number>; warnings?: [object | string, string | undefined][] };
+    const hit = key === undefined ? undefined : await memo.restore<Kept>(key);
     if (hit) {
       for (const [name, n] of Object.entries(hit.counts)) count(name, n);
+      for (const [o, m] of hit.warnings ?? []) log.warn(o, m);
+      await reused?.();
       return hit.result;
     }
     const noted: Record<string, number> = {};
+    const warnings: NonNullable<Kept["warnings"]> = [];
+    const warn = log.warn;
     stepCounts = noted;
+    log.warn = (o, m) => {
+      warnings.push([o, m]);
+      warn(o, m);
+    };
     const watch = cache.watch();
     let result: M;
     try {
       result = await run();
     } finally {
       stepCounts = undefined;
+      log.warn = warn;
     }
     const used = watch();
-    if (key !== undefined) await memo.save(key, await files(), { result, counts: noted }, used);
+    if (key !== undefined) await memo.save<Kept>(key, await files(), { result, counts: noted, ...(warnings.length ? { warnings } : {}) }, used);
     return result;
+  };
+  /** Bytes of the files phase k reads for these units (the progress of a reused step). */
+  const readBytes = async (us: number[]) => {
+    const from = sourceOf(plan, k).from.name;
+    let n = 0;
+    for (const u of us) n += (await stat(unitsFile(work, from, u)).catch(() => ({ size: 0 }))).size;
+    meter.bytes(n);
   };
   let manifest: Manifest | undefined;
   try {
@@ -192,6 +213,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
             key,
             async () => passUnit(env, u, stages, count, collectors && dirs ? await collectUnit(dirs, collectors, u) : undefined),
             () => passFiles(env, u),
+            () => readBytes([u]),
           );
           unitFacts[u] = { records, ...(key ? { fp: key } : {}) };
         }
@@ -222,6 +244,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
             await packKey(env, groups[g], count),
             async () => void (await packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined })),
             async () => [...(await filesUnder(dir)), ...(await Promise.all(analyses.map((a) => collectedFiles(a.dirs.collect, g)))).flat()],
+            () => readBytes(groups[g].units),
           );
         }
       } finally {
