@@ -96,13 +96,15 @@ const cpu = process.cpuUsage();
 process.stderr.write("\\nBENCH " + JSON.stringify({ rc, sec: (performance.now() - t0) / 1000, cpu_sec: (cpu.user + cpu.system) / 1e6, rss_mb: process.resourceUsage().maxRSS / 1024 }) + "\\n");
 `,
 );
+/** `again`: the cache on, and the build must be found up to date; `"cache"`: the cache on. */
 function run(pipeline, workers, again = false) {
   const r = spawnSync(process.execPath, [runner, pipeline, String(workers), ...(again ? ["again"] : [])], { encoding: "utf8", env: { ...process.env, SIFTPACK_LOG: "warn" }, maxBuffer: 1 << 26 });
   const line = r.stderr.split("\n").find((l) => l.startsWith("BENCH "));
   if (!line) throw new Error(`pipeline run failed: ${r.stderr}`);
   const res = JSON.parse(line.slice(6));
   if (res.rc !== 0) throw new Error(`pipeline run exited ${res.rc}: ${r.stderr}`);
-  if (again && !/"up_to_date": true/.test(r.stdout)) throw new Error(`the unchanged rebuild built again: ${r.stderr}`);
+  if (again === true && !/"up_to_date": true/.test(r.stdout)) throw new Error(`the unchanged rebuild built again: ${r.stderr}`);
+  if (again === "cache") res.cache = JSON.parse(r.stdout).cache;
   return res;
 }
 const cores = availableParallelism();
@@ -116,6 +118,41 @@ const pN = run(pipelineFile("full", large, full), cores);
 // The same build again with nothing changed (README, Rebuilding in CI): answered from hashes.
 const same = run(pipelineFile("full", large, full), cores, true);
 const tok1 = run(pipelineFile("tok", large, tokOnly), 1);
+// Appending about 1 % (README, Rebuilding in CI): the large corpus as 8 files, built with the cache
+// on; then a ninth file of new documents (made the corpus's way, with ids and groups of their own)
+// and the build again. With near-duplicate removal, as a corpus that grows by exports has.
+const appendDir = join(work, "append");
+rmSync(appendDir, { recursive: true, force: true });
+mkdirSync(appendDir, { recursive: true });
+{
+  const lines = readFileSync(large, "utf8").split("\n").filter(Boolean);
+  const per = Math.ceil(lines.length / 8);
+  for (let i = 0; i < 8; i++) writeFileSync(join(appendDir, `part-${i}.jsonl`), lines.slice(i * per, (i + 1) * per).join("\n") + "\n");
+}
+const fullNear = ["normalize: {}", "filter: { min_words: 5 }", "dedup: { method: exact }", "dedup: { method: minhash, threshold: 0.8 }", "split: { by: group, holdout: { val: 0.1, test: 0.1 } }", "tokenize: { encoding: gpt2 }", "pack: { length: 2048, strategy: best-fit }"];
+const appendPipeline = pipelineFile("append", join(appendDir, "*.jsonl"), fullNear);
+const appendFirst = run(appendPipeline, cores, "cache");
+const extraMb = Math.max(1, Math.round(largeMb / 100));
+const extraLines = readFileSync(await makeCorpus(join(work, "append-extra"), extraMb), "utf8")
+  .split("\n")
+  .filter(Boolean)
+  .map((l) => {
+    const r = JSON.parse(l);
+    return JSON.stringify({ ...r, id: `new-${r.id}`, group: `new-${r.group}` });
+  });
+writeFileSync(join(appendDir, "part-8.jsonl"), extraLines.join("\n") + "\n");
+const appendAgain = run(appendPipeline, cores, "cache");
+const appendedMb = readFileSync(join(appendDir, "part-8.jsonl")).length / 1e6;
+results.pipeline.append = { first_s: appendFirst.sec, appended_mb: appendedMb, appended_share: appendedMb / largeInputMb, rebuild_s: appendAgain.sec, share_of_first: appendAgain.sec / appendFirst.sec, steps: appendAgain.cache.steps };
+rows.push([
+  `append ${((100 * appendedMb) / largeInputMb).toFixed(1)} % to a ${largeInputMb.toFixed(0)} MB build (with MinHash)`,
+  "",
+  "",
+  `${appendAgain.sec.toFixed(1)} s = ${((100 * appendAgain.sec) / appendFirst.sec).toFixed(0)} % of its first build (${appendFirst.sec.toFixed(1)} s); ${appendAgain.cache.steps.reused} of ${appendAgain.cache.steps.reused + appendAgain.cache.steps.computed} later steps reused`,
+]);
+rmSync(appendDir, { recursive: true, force: true });
+rmSync(join(work, "out-append"), { recursive: true, force: true });
+rmSync(join(work, ".out-append.cache"), { recursive: true, force: true });
 results.pipeline = {
   input_mb: largeInputMb,
   full_1_worker_mb_s: largeInputMb / p1.sec,
@@ -165,6 +202,6 @@ if (!flag("skip-cluster")) {
   results.cluster = r.stdout.trim().split("\n");
 }
 
-for (const d of ["full", "full-small", "tok"]) rmSync(join(work, `out-${d}`), { recursive: true, force: true });
+for (const d of ["full", "full-small", "tok"]) for (const name of [`out-${d}`, `.out-${d}.cache`]) rmSync(join(work, name), { recursive: true, force: true });
 writeFileSync(join(work, "results.json"), JSON.stringify(results, null, 2) + "\n");
 console.log(`\nwrote ${join(work, "results.json")}`);
