@@ -20,7 +20,7 @@ export interface Packer {
    * Takes one document; the array may be reused by the caller after the call returns. `ref` comes
    * back with every piece of the document in the rows (`RowPiece.doc`); packing never looks at it.
    */
-  add(doc: Uint32Array, ref?: unknown): void;
+  add(doc: Uint32Array, ref?: unknown, edges?: readonly number[]): void;
   /** Emits whatever is still buffered (padded). */
   finish(): void;
   /** Statistics so far (complete after `finish`). */
@@ -49,7 +49,8 @@ export abstract class RowPacker implements Packer {
     this.sink = sink;
   }
 
-  abstract add(doc: Uint32Array, ref?: unknown): void;
+  /** `edges`: where a document longer than a row may be cut (pieceStarts); strategies that keep documents whole honour them. */
+  abstract add(doc: Uint32Array, ref?: unknown, edges?: readonly number[]): void;
   abstract finish(): void;
 
   /** Pads the row from `fill` on and hands it to the sink. */
@@ -76,4 +77,31 @@ export abstract class RowPacker implements Packer {
   get cutDocuments(): number {
     return this.tally.cutDocuments;
   }
+}
+
+/**
+ * Where a document of `n` tokens is cut into pieces of at most `length`: every `length` tokens, or,
+ * given `edges` (the offsets where it may be cut, ascending: a conversation's turn edges), at the
+ * last edge that keeps each piece within `length`. The caller makes sure no stretch between two
+ * edges is longer than `length`. Returns the pieces' start offsets (the first is 0).
+ */
+export function pieceStarts(n: number, length: number, edges?: readonly number[]): number[] {
+  const out: number[] = [0];
+  if (!edges) {
+    for (let at = length; at < n; at += length) out.push(at);
+    return out;
+  }
+  let at = 0;
+  let k = 0;
+  while (n - at > length) {
+    let cut = -1;
+    while (k < edges.length && edges[k] - at <= length) {
+      if (edges[k] > at) cut = edges[k];
+      k++;
+    }
+    if (cut < 0) throw new Error(`pieceStarts: no edge within ${length} tokens of ${at}`);
+    out.push(cut);
+    at = cut;
+  }
+  return out;
 }

@@ -90,8 +90,8 @@ export class ShuffledPacker implements Packer {
     private readonly shuffle: RowShuffle,
   ) {}
 
-  add(doc: Uint32Array, ref?: unknown): void {
-    this.inner.add(doc, ref);
+  add(doc: Uint32Array, ref?: unknown, edges?: readonly number[]): void {
+    this.inner.add(doc, ref, edges);
   }
 
   finish(): void {

@@ -3,6 +3,8 @@ import { isAbsolute, relative, resolve } from "node:path";
 import { SiftpackError } from "../errors.js";
 import { defineStage, type Stage, type StageEnv } from "./stage.js";
 import { bool, field, list, num, obj, refine, str, type Infer, type Schema } from "../pipeline/schema.js";
+import { CompiledTemplate, templateSchema, unknownSpecials, type ChatTemplate } from "../chat/template.js";
+import type { DocRecord } from "../types.js";
 import { ENCODINGS, loadEncoding, loadTokenizerFile, MAX_TRAIN_VOCAB, TokenBuffer, trainingStage, type Encoder } from "../tokenizer/index.js";
 
 const DEFAULT_EOS = "<|endoftext|>";
@@ -21,6 +23,9 @@ const base = obj({
   eos_token: field(str({ nonEmpty: true })),
   eos: field(bool(), { default: true }),
   bos: field(bool(), { default: false }),
+  // How a conversation record (a source with `turns`) becomes ids and targets; no default, so a
+  // pipeline without conversations keeps its resolved form and hash.
+  template: field(templateSchema),
 });
 
 /** `encoding` (default gpt2), `tokenizer` and `train` are alternatives: the raw keys are checked, since `encoding` gets a default. */
@@ -45,13 +50,16 @@ export const tokenizeOptions = refine(exclusive(base), (o, path, issues) => {
     const floor = 256 + new Set(r.train.special_tokens).size + 1;
     if (r.train.vocab_size < floor) issues.push({ path: [...path, "train", "vocab_size"], message: `expected at least ${floor} (256 bytes, the special tokens and one merge)` });
   }
+  if (r.template !== undefined && r.train !== undefined)
+    issues.push({ path: [...path, "template"], atKey: true, message: "template works with encoding or tokenizer; a tokenizer trained in the build (train) cannot render conversations yet" });
 });
 
 /** Resolved options; `tokenizer`, `train` and `eos_token` are absent unless given. */
-export type TokenizeOptions = Omit<Infer<typeof base>, "tokenizer" | "train" | "eos_token"> & {
+export type TokenizeOptions = Omit<Infer<typeof base>, "tokenizer" | "train" | "eos_token" | "template"> & {
   tokenizer?: string;
   train?: TrainTokenizerOptions;
   eos_token?: string;
+  template?: ChatTemplate;
 };
 
 /**
@@ -83,6 +91,23 @@ export function encoderFor(o: TokenizeOptions, baseDir: string): Encoder {
     }
   }
   return loadEncoding(o.encoding);
+}
+
+/**
+ * The ids of a record, and for a conversation its layout (src/chat/layout.ts): a record with turns
+ * is rendered by the template, any other as tokenizeText.
+ */
+export function tokenizeRecord(enc: Encoder, r: Pick<DocRecord, "text" | "turns">, o: TokenizeOptions, template: CompiledTemplate | undefined, buf: TokenBuffer): { tokens: Uint32Array; layout?: Uint32Array } {
+  if (!r.turns) return { tokens: tokenizeText(enc, r.text, o, buf) };
+  if (!template) throw new SiftpackError("SP_PIPELINE_KEY", "a conversation record reached a tokenize stage without a template");
+  return template.encode(enc, r, o.bos, o.eos, buf);
+}
+
+/** The template's special-token names the encoder does not know, as a pipeline error. */
+export function checkTemplate(o: TokenizeOptions, enc: Encoder): void {
+  if (o.template === undefined) return;
+  const issues = unknownSpecials(o.template, Object.keys(enc.specialTokens), ["template"]);
+  if (issues.length > 0) throw new SiftpackError("SP_PIPELINE_KEY", `tokenize: ${issues.map((i) => `${i.path.join(".")}: ${i.message}`).join("; ")}`);
 }
 
 /**
@@ -136,9 +161,13 @@ export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stag
     };
   }
   const enc = encoderFor(o, env.baseDir);
+  checkTemplate(o, enc);
+  const template = o.template ? new CompiledTemplate(o.template) : undefined;
   const stage: Stage = async function* tokenize(input, ctx) {
     for await (const r of input) {
-      r.tokens = tokenizeText(enc, r.text, o, buf);
+      const { tokens, layout } = tokenizeRecord(enc, r, o, template, buf);
+      r.tokens = tokens;
+      if (layout) r.chat = layout;
       if (r.tokens.length === 0) ctx.drop(r, "no-tokens");
       else yield r;
     }
