@@ -51,6 +51,13 @@ export function turnEdges(layout: Uint32Array): number[] {
   return out;
 }
 
+/** The turn edges where a turn of a role not trained on begins (a question): the better places to start a piece. */
+export function questionEdges(layout: Uint32Array): Set<number> {
+  const out = new Set<number>();
+  for (const t of turnSpans(layout).slice(1)) if (t.learn === t.end) out.add(t.start);
+  return out;
+}
+
 /**
  * The longest stretch of the first `length` tokens that cannot be cut at a turn edge: the template's
  * begin with the first turn, a turn, the last turn with the end.

@@ -19,7 +19,8 @@ import type { AnalysisSteps } from "../analysis/steps.js";
 import type { DocRecord, StageContext } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
 import { ConversationTally } from "../chat/tally.js";
-import { longestUncut, turnEdges } from "../chat/layout.js";
+import { longestUncut, questionEdges, turnEdges } from "../chat/layout.js";
+import type { CutEdges } from "../pack/packer.js";
 import { dropsFile, fixFromRead, keyedDirs, recordsBefore, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
 
 /** What one group leaves for assemble (group.json). */
@@ -162,7 +163,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         for (let c = 0; c < n; c++) packer.add(r.tokens!, c === 0 ? origin : { ...origin, copy: c }, fit?.edges);
         // A mixture's part copy: the record's first tokens, as its last copy (README, Mixtures); a
         // conversation's is cut at turn edges where they keep its pieces within a block.
-        if (part > 0) packer.add(r.tokens!.subarray(0, part), { ...origin, ...(n > 0 ? { copy: n } : {}), part }, fit?.edges && longestUncut(r.chat!, part) <= pack.length ? fit.edges.filter((e) => e < part) : undefined);
+        if (part > 0) packer.add(r.tokens!.subarray(0, part), { ...origin, ...(n > 0 ? { copy: n } : {}), part }, fit?.edges && longestUncut(r.chat!, part) <= pack.length ? { ...fit.edges, at: fit.edges.at.filter((e) => e < part) } : undefined);
         for (const f of feeds) await f.add(r);
         if (writer.pending > 0) await writer.writePending();
       };
@@ -212,7 +213,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
  * its turn edges (left out when one turn with its markers is longer than a block), left out, or cut
  * like any document (and always with concat, which cuts at every block edge).
  */
-function conversationFit(r: DocRecord, pack: OutputSettings["pack"]): { edges?: number[]; cut: "none" | "at_turns" | "anywhere"; drop?: string } {
+function conversationFit(r: DocRecord, pack: OutputSettings["pack"]): { edges?: CutEdges; cut: "none" | "at_turns" | "anywhere"; drop?: string } {
   const n = r.tokens!.length;
   const L = pack.length;
   if (n <= L) return { cut: "none" };
@@ -220,7 +221,7 @@ function conversationFit(r: DocRecord, pack: OutputSettings["pack"]): { edges?: 
   if (mode === "drop") return { cut: "none", drop: "conversation-too-long" };
   if (mode === "anywhere" || pack.strategy === "concat") return { cut: "anywhere" };
   if (longestUncut(r.chat!, n) > L) return { cut: "none", drop: "turn-too-long" };
-  return { edges: turnEdges(r.chat!), cut: "at_turns" };
+  return { edges: { at: turnEdges(r.chat!), preferred: questionEdges(r.chat!) }, cut: "at_turns" };
 }
 
 function dropOf(e: Extract<UnitEvent, { k: "drop" }>): { r: DocRecord; reason: string; detail?: Record<string, unknown> } {

@@ -1,5 +1,5 @@
 // `best-fit` packing: whole documents placed by best-fit decreasing into rows, within a bounded look-ahead buffer.
-import { pieceStarts, RowPacker, type RowSink } from "./packer.js";
+import { pieceStarts, RowPacker, type CutEdges, type RowSink } from "./packer.js";
 import { CapacityIndex } from "./capacity-index.js";
 
 /**
@@ -35,7 +35,7 @@ export class BestFitPacker extends RowPacker {
     this.index = new CapacityIndex(length);
   }
 
-  add(doc: Uint32Array, ref?: unknown, edges?: readonly number[]): void {
+  add(doc: Uint32Array, ref?: unknown, edges?: CutEdges): void {
     if (doc.length === 0) return;
     const L = this.length;
     if (!edges || doc.length <= L) {

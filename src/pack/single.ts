@@ -1,12 +1,12 @@
 // `single` packing: one document per row, padded; a longer document is cut into `length`-token chunks, one per row.
-import { pieceStarts, RowPacker } from "./packer.js";
+import { pieceStarts, RowPacker, type CutEdges } from "./packer.js";
 
 /**
  * The simplest layout a trainer can assume (one document per row, attention never needs a
  * document mask), paid for in padding: every row but full chunks ends in pad tokens.
  */
 export class SinglePacker extends RowPacker {
-  add(doc: Uint32Array, ref?: unknown, edges?: readonly number[]): void {
+  add(doc: Uint32Array, ref?: unknown, edges?: CutEdges): void {
     if (doc.length === 0) return;
     const L = this.length;
     // Without edges: every L tokens; a conversation's edges keep its pieces to whole turns.

@@ -6,9 +6,9 @@ import { createPacker, type PackOptions } from "../../src/stages/pack.js";
 import { learnOfRow, positionsOf, targetMaskOf } from "../../src/output/shard-writer.js";
 import { TokenBuffer, type Encoder } from "../../src/tokenizer/index.js";
 import type { Issue } from "../../src/pipeline/schema.js";
-import type { RowPiece } from "../../src/pack/packer.js";
+import type { CutEdges, RowPiece } from "../../src/pack/packer.js";
 import type { Turn } from "../../src/types.js";
-import { longestUncut, turnEdges } from "../../src/chat/layout.js";
+import { longestUncut, questionEdges, turnEdges } from "../../src/chat/layout.js";
 
 export const EOS = 0;
 export const SPECIALS: Record<string, number> = { "<|endoftext|>": 0, "<|ask|>": 1, "<|answer|>": 2 };
@@ -78,8 +78,8 @@ export function packConversations(t: ChatTemplate, convs: { text: string; turns:
   return { rows, docs };
 }
 
-function edgesFor(d: { tokens: Uint32Array; layout: Uint32Array }, L: number): number[] | undefined {
+function edgesFor(d: { tokens: Uint32Array; layout: Uint32Array }, L: number): CutEdges | undefined {
   if (d.tokens.length <= L) return undefined;
   if (longestUncut(d.layout, d.tokens.length) > L) throw new Error("a turn longer than the block");
-  return turnEdges(d.layout);
+  return { at: turnEdges(d.layout), preferred: questionEdges(d.layout) };
 }

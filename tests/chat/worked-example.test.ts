@@ -54,4 +54,14 @@ describe("worked example: two conversations, length 16, best-fit", () => {
       [0, 0, 0, 0, 1, 1, 1, 0],
     ]);
   });
+
+  it("a cut prefers the start of a question, so an answer stays in the block of the question it answers", () => {
+    // D: tech "hi", desk "yo", tech "hi", desk "yo", desk "ok" → 18 tokens; its turns start at 3, 7, 10 and 14.
+    // The last edge within 16 tokens is 14, which would leave the last answer alone; 7 starts a question.
+    const D = conversation([["tech", "hi"], ["desk", "yo"], ["tech", "hi"], ["desk", "yo"], ["desk", "ok"]]);
+    const { rows } = packConversations(T, [D], options({ length: 16, strategy: "single", shuffle: false }));
+    expect(rows.map((r) => r.pieces)).toEqual([[{ doc: 0, offset: 0 }], [{ doc: 0, offset: 7 }]]);
+    expect(rows[1].tokens.slice(0, 11)).toEqual([1, 104, 105, 2, 121, 111, 0, 2, 111, 107, 0]);
+    expect(rows[1].target.slice(0, 11)).toEqual([0, 0, 0, 0, 1, 1, 1, 0, 1, 1, 1]);
+  });
 });
