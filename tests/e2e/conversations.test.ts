@@ -117,6 +117,8 @@ describe("help-desk conversations, end to end", () => {
       // Here no trained token is the first of a piece, so every trained token is a target.
       expect(x.trained_tokens, name).toBe(s.target_tokens);
       expect(x.min_turns).toBeGreaterThanOrEqual(2);
+      // The per-source token statistics count a conversation's trained tokens as its targets too.
+      expect((manifest as any).token_stats[name].by_source.helpdesk.target_tokens, name).toBe(s.target_tokens);
     }
   });
 
