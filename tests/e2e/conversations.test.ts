@@ -130,6 +130,21 @@ describe("help-desk conversations, end to end", () => {
     expect(r.stdout).not.toMatch(/⟦### Technician/);
   });
 
+  it("the report has a conversations section whose every figure is the manifest's", () => {
+    const file = join(tempDir("helpdesk-report"), "report.html");
+    const r = siftpack(["report", out, "--out", file]);
+    expect(r.code).toBe(0);
+    const html = readFileSync(file, "utf8");
+    const section = html.slice(html.indexOf('id="conversations"'));
+    const figs = [...section.slice(0, section.indexOf("</section>")).matchAll(/data-fig="([^"]+)" data-value="([^"]*)"/g)];
+    expect(figs.length).toBeGreaterThan(10);
+    const unescape = (x: string) => x.replace(/&quot;/g, '"').replace(/&amp;/g, "&");
+    for (const [, path, value] of figs) {
+      const at = (JSON.parse(unescape(path)) as (string | number)[]).reduce((o: any, k) => o?.[k], manifest);
+      expect(String(at), path).toBe(unescape(value));
+    }
+  });
+
   it("long_conversations: drop leaves the long one out with a ledger reason", () => {
     const o = build(variant("helpdesk-drop", (t) => t.replace("strategy: best-fit,", "strategy: best-fit, long_conversations: drop,")), tempDir("helpdesk-drop"));
     const dropped = ledger(o).filter((l) => l.reason === "conversation-too-long");
