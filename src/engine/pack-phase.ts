@@ -187,7 +187,13 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
     const ends: Promise<void>[] = [];
     for (const { writer, packer } of writers.values()) {
       packer.finish();
-      ends.push(writer.finish().then(() => void Object.assign(writer.stats, packer.stats)));
+      ends.push(
+        writer.finish().then(() => {
+          Object.assign(writer.stats, packer.stats);
+          // A conversation cut where a turn not trained on starts loses no target there.
+          writer.stats.targets_lost_to_cuts -= writer.untrainedCutStarts;
+        }),
+      );
     }
     for (const [split, t] of talks) writers.get(split)!.writer.stats.conversations = t.s;
     ends.push(ledger.close());

@@ -86,6 +86,11 @@ export class ShardWriter {
   /** The shard being written, if any. */
   private writing: Promise<void> = Promise.resolve();
   readonly files: WrittenFile[] = [];
+  /**
+   * Conversation pieces after a cut whose first token is not trained on: the cut cost no target there
+   * (the packer counts one lost target per cut; the pack phase takes these off).
+   */
+  untrainedCutStarts = 0;
   // Key order here is the order in manifest.json; the packer fills documents and the cut counts.
   readonly stats: SplitStats = {
     documents: 0,
@@ -122,6 +127,11 @@ export class ShardWriter {
       this.learn ??= new Uint8Array(this.tokens.length).fill(1);
       learn = this.learn.subarray(this.rows * L, (this.rows + 1) * L);
       learnOfRow(segments, pieces, learn);
+      let start = 0;
+      for (let k = 0; k < pieces.length; k++) {
+        if (pieces[k].offset > 0 && (pieces[k].doc as SegmentOrigin | undefined)?.chat && learn[start] === 0) this.untrainedCutStarts++;
+        while (start < L && segments[start] === k + 1) start++;
+      }
     }
     this.rows++;
     this.countRow(segments, learn);

@@ -114,12 +114,20 @@ describe("help-desk conversations, end to end", () => {
       const x = s.conversations!;
       expect(Object.values(x.tokens_by_role).reduce((a, n) => a + n, 0), name).toBe(x.tokens);
       expect(x.tokens, name).toBe(s.tokens);
-      // Here no trained token is the first of a piece, so every trained token is a target.
+      // Here no trained token is the first of a piece, so every trained token is a target, and the cut lost none.
       expect(x.trained_tokens, name).toBe(s.target_tokens);
+      expect(s.targets_lost_to_cuts, name).toBe(0);
       expect(x.min_turns).toBeGreaterThanOrEqual(2);
       // The per-source token statistics count a conversation's trained tokens as its targets too.
       expect((manifest as any).token_stats[name].by_source.helpdesk.target_tokens, name).toBe(s.target_tokens);
     }
+  });
+
+  it("run and stats print the conversations per split", () => {
+    const r = siftpack(["stats", out]);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toMatch(/^split\s+conversations\s+turns\s+min-max turns\s+technician tokens\s+helpdesk tokens/m);
+    expect(r.stdout).toMatch(new RegExp(`^train\\s+${manifest.splits.train.conversations!.conversations}\\s`, "m"));
   });
 
   it("inspect marks the trained tokens", () => {
