@@ -6,6 +6,7 @@
 import { field, list, obj, refine, str, type Infer, type Issue, type Path, type Schema } from "../pipeline/schema.js";
 import type { Encoder, TokenBuffer } from "../tokenizer/index.js";
 import type { Turn } from "../types.js";
+import { SiftpackError } from "../errors.js";
 import { turnTexts } from "./turns.js";
 import { makeLayout } from "./layout.js";
 
@@ -138,6 +139,9 @@ export class CompiledTemplate {
     if (bos) buf.push(enc.eosId);
     encodeMarker(enc, this.begin, buf);
     const first = buf.length;
+    const turnsLength = r.turns!.reduce((a, t) => a + t.chars, 0) + r.turns!.length - 1;
+    if (turnsLength !== r.text.length)
+      throw new SiftpackError("SP_STAGE", `a conversation's text (${r.text.length} characters) no longer matches its turns (${turnsLength}): a stage changed its text without its turns (change each turn with mapTurnTexts)`);
     const texts = turnTexts(r);
     const spans: { role: number; learn: number; end: number }[] = [];
     r.turns!.forEach((turn, i) => {
