@@ -82,6 +82,9 @@ describe("help-desk conversations, end to end", () => {
       [46, 'turn 2 of "messages" has no "value"'],
     ]);
     expect(ledger(out)).toHaveLength(46);
+    // The copy is found by exact dedup on the conversation; the contact details in HD-0042's question are redacted.
+    expect(ledger(out).find((l) => l.fate === "dropped")).toMatchObject({ id: "HD-0043", reason: "duplicate", detail: { of: "HD-0004" } });
+    expect(manifest.stage_counts).toMatchObject({ "redact:email": 1, "redact:phone": 1 });
   });
 
   it("NumPy rebuilds the mask; the targets of each conversation decode to exactly its answers and their closing markers", () => {
