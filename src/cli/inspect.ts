@@ -86,7 +86,7 @@ export const inspectCommand: CommandModule<object, Args> = {
     if (args.mask !== undefined) {
       const title = `${args.split} block ${args.block} — attention mask (${where})`;
       const targets = learn ? targetMaskOf(segments, m.length, learn) : undefined;
-      const bytes = kind === "png" ? maskPng(segments).png : maskSvg(segments, { title, ...(targets ? { targets } : {}) }).svg;
+      const bytes = kind === "png" ? maskPng(segments, 800, targets).png : maskSvg(segments, { title, ...(targets ? { targets } : {}) }).svg;
       await writeFile(args.mask, bytes).catch((err) => {
         throw new SiftpackError("SP_OUTPUT", `${args.mask}: cannot write the mask picture: ${describeSystemError(err)}`, { cause: err });
       });
