@@ -50,8 +50,8 @@ export const tokenizeOptions = refine(exclusive(base), (o, path, issues) => {
     const floor = 256 + new Set(r.train.special_tokens).size + 1;
     if (r.train.vocab_size < floor) issues.push({ path: [...path, "train", "vocab_size"], message: `expected at least ${floor} (256 bytes, the special tokens and one merge)` });
   }
-  if (r.template !== undefined && r.train !== undefined)
-    issues.push({ path: [...path, "template"], atKey: true, message: "template works with encoding or tokenizer; a tokenizer trained in the build (train) cannot render conversations yet" });
+  // With train the special tokens are known from the options: the template is checked here, at its place in the file.
+  if (r.template !== undefined && r.train !== undefined) issues.push(...unknownSpecials(r.template, r.train.special_tokens, [...path, "template"]));
 });
 
 /** Resolved options; `tokenizer`, `train` and `eos_token` are absent unless given. */
@@ -141,6 +141,7 @@ export function tokenizeBounds(o: TokenizeOptions, baseDir: string): { eosId: nu
 /** The stage and, once known, its encoder (with `train`: after the stage has read all records). */
 export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stage; encoder(): Encoder } {
   const buf = new TokenBuffer(1 << 16);
+  const template = o.template ? new CompiledTemplate(o.template) : undefined;
   if (o.train !== undefined) {
     let trained: Encoder | undefined;
     const stage = trainingStage({
@@ -148,7 +149,7 @@ export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stag
       minFrequency: o.train.min_frequency,
       specialTokens: o.train.special_tokens,
       eosToken: o.eos_token ?? DEFAULT_EOS,
-      tokenize: (enc, text) => tokenizeText(enc, text, o, buf),
+      tokenize: (enc, r) => tokenizeRecord(enc, r, o, template, buf),
       markers: (o.bos ? 1 : 0) + (o.eos ? 1 : 0),
       onTrained: (enc) => (trained = enc),
     });
@@ -162,7 +163,6 @@ export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stag
   }
   const enc = encoderFor(o, env.baseDir);
   checkTemplate(o, enc);
-  const template = o.template ? new CompiledTemplate(o.template) : undefined;
   const stage: Stage = async function* tokenize(input, ctx) {
     for await (const r of input) {
       const { tokens, layout } = tokenizeRecord(enc, r, o, template, buf);
