@@ -124,6 +124,21 @@ rows.push({ conv_id: "HD-0044", depot: "Saltings", messages: [{ from: "driver", 
 rows.push({ conv_id: "HD-0045", depot: "Northfold", messages: [] });
 rows.push({ conv_id: "HD-0046", depot: "Quayside", messages: [{ from: "technician", value: "Car 5210 horn is weak, is that a known issue?" }, { from: "helpdesk" }] });
 
+// An answer quoting, word for word, the first sentence of passage 2 of sample-data/protected/eval-passages.txt:
+// decontaminate drops the conversation (its depot lands in train).
+rows.push({
+  conv_id: "HD-0047",
+  depot: "Harrow Lane",
+  messages: [
+    { from: "technician", value: "Drivers report a steady thump from car 4118 at low speed. What causes that?" },
+    {
+      from: "helpdesk",
+      value:
+        "When a wheel locks under braking and slides along the rail, the small patch of steel in contact heats and cools so quickly that it hardens into a flat spot on the tread. Book the car on the wheel lathe.",
+    },
+  ],
+});
+
 mkdirSync(dirname(out), { recursive: true });
 writeFileSync(out, rows.map((r) => JSON.stringify(r)).join("\n") + "\n");
 console.log(`${out}: ${rows.length} conversations`);

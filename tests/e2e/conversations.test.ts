@@ -71,19 +71,22 @@ for k in out["targets"]: out["targets"][k] = [t for _, t in sorted(out["targets"
 print(json.dumps(out))`;
 
 describe("help-desk conversations, end to end", () => {
-  it("accounts for every conversation: three malformed ones quarantined with their lines, one copy dropped", () => {
+  it("accounts for every conversation: three malformed ones quarantined with their lines, a copy and a contaminated answer dropped", () => {
     const r = manifest.records;
-    expect(r).toMatchObject({ read: 46, quarantined: 3, dropped: 1 });
-    expect(r.by_reason.duplicate).toBe(1);
+    expect(r).toMatchObject({ read: 47, quarantined: 3, dropped: 2 });
+    expect(r.by_reason).toMatchObject({ duplicate: 1, decontaminated: 1 });
     const q = readFileSync(join(out, "quarantine.jsonl"), "utf8").trim().split("\n").map((l) => JSON.parse(l));
     expect(q.map((e) => [e.line, e.error])).toEqual([
       [44, 'turn 1 of "messages": unknown role "driver" (the source\'s roles are technician, helpdesk)'],
       [45, 'field "messages" is an empty list of turns'],
       [46, 'turn 2 of "messages" has no "value"'],
     ]);
-    expect(ledger(out)).toHaveLength(46);
+    expect(ledger(out)).toHaveLength(47);
     // The copy is found by exact dedup on the conversation; the contact details in HD-0042's question are redacted.
-    expect(ledger(out).find((l) => l.fate === "dropped")).toMatchObject({ id: "HD-0043", reason: "duplicate", detail: { of: "HD-0004" } });
+    const dropped = ledger(out).filter((l) => l.fate === "dropped");
+    expect(dropped[0]).toMatchObject({ id: "HD-0043", reason: "duplicate", detail: { of: "HD-0004" } });
+    // HD-0047's answer quotes a protected passage: decontaminate checks every turn and drops the conversation.
+    expect(dropped[1]).toMatchObject({ id: "HD-0047", reason: "decontaminated" });
     expect(manifest.stage_counts).toMatchObject({ "redact:email": 1, "redact:phone": 1 });
   });
 
