@@ -98,6 +98,20 @@ export function unknownSpecials(t: ChatTemplate, specials: readonly string[], pa
   return issues;
 }
 
+/**
+ * The template shown for people (`siftpack plan`): one turn of each role in the order written, its
+ * text as `<role text>`, special tokens by name, the trained part between ⟦ and ⟧ (as `inspect` marks it).
+ */
+export function templateExample(t: ChatTemplate): string {
+  const show = (m: string) => markerParts(m).map((p) => ("text" in p ? p.text : p.special)).join("");
+  let out = show(t.begin);
+  for (const [role, m] of Object.entries(t.roles)) {
+    const body = `<${role} text>${show(m.after)}`;
+    out += show(m.before) + (t.train_on.includes(role) ? `⟦${body}⟧` : body);
+  }
+  return out + show(t.end);
+}
+
 /** Appends a marker's ids: plain parts encoded as ordinary text, [[name]] as the special token's id. */
 function encodeMarker(enc: Encoder, parts: readonly MarkerPart[], out: TokenBuffer): void {
   for (const p of parts) {

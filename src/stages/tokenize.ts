@@ -3,7 +3,7 @@ import { isAbsolute, relative, resolve } from "node:path";
 import { SiftpackError } from "../errors.js";
 import { defineStage, type Stage, type StageEnv } from "./stage.js";
 import { bool, field, list, num, obj, refine, str, type Infer, type Schema } from "../pipeline/schema.js";
-import { CompiledTemplate, templateSchema, unknownSpecials, type ChatTemplate } from "../chat/template.js";
+import { CompiledTemplate, templateExample, templateSchema, unknownSpecials, type ChatTemplate } from "../chat/template.js";
 import type { DocRecord } from "../types.js";
 import { ENCODINGS, loadEncoding, loadTokenizerFile, MAX_TRAIN_VOCAB, TokenBuffer, trainingStage, type Encoder } from "../tokenizer/index.js";
 
@@ -185,6 +185,8 @@ export default defineStage({
   identity: (o, baseDir) => (o.train !== undefined ? "trained" : encoderFor(o, baseDir).name),
   reads: async (o) => (o.tokenizer !== undefined ? [o.tokenizer] : []),
   options: tokenizeOptions as Schema<TokenizeOptions>,
+  // A conversation as the template renders it, for comparing with a model's documented format.
+  explain: (o) => (o.template ? { template_example: templateExample(o.template) } : {}),
   create(o, env) {
     return createTokenize(o, env).stage;
   },

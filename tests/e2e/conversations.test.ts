@@ -136,6 +136,12 @@ describe("help-desk conversations, end to end", () => {
     expect(r.stdout).toMatch(new RegExp(`^train\\s+${manifest.splits.train.conversations!.conversations}\\s`, "m"));
   });
 
+  it("plan shows a conversation as the template renders it, the trained part marked", () => {
+    const r = siftpack(["plan", "pipelines/helpdesk.yaml"]);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toContain(["#     template_example: |-", "#       ### Technician:", "#       <technician text>", "#       ### Help-desk:", "#       ⟦<helpdesk text>", "#       <|endoftext|>⟧"].join("\n"));
+  });
+
   it("inspect marks the trained tokens", () => {
     const r = siftpack(["inspect", out, "--split", "train", "--block", "0"]);
     expect(r.code).toBe(0);
