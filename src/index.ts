@@ -15,4 +15,5 @@ export { npyHeader, parseNpyHeader } from "./output/npy.js";
 export { positionsOf, targetMaskOf, cuSeqlensOf } from "./output/shard-writer.js";
 export * as schema from "./pipeline/schema.js";
 export { SiftpackError, ERROR_CODES, type ErrorCode } from "./errors.js";
-export type { DocRecord, StageContext, Logger, Origin } from "./types.js";
+export type { DocRecord, StageContext, Logger, Origin, Turn } from "./types.js";
+export { mapTurnTexts, turnTexts } from "./chat/turns.js";

@@ -6,6 +6,12 @@ export interface Origin {
   line: number;
 }
 
+/** One turn of a conversation record: its role and the length of its text (UTF-16 units) in the record's `text`. */
+export interface Turn {
+  role: string;
+  chars: number;
+}
+
 /** One document. `id` is unique within its source; `seq` is its row in its input file (0-based, bad rows counted): with the file, its place in input order. */
 export interface DocRecord {
   id: string;
@@ -18,8 +24,18 @@ export interface DocRecord {
   split?: string;
   /** Set by stages that group near-duplicates. */
   cluster?: string;
+  /**
+   * A conversation (a source with `turns`): `text` is the turns' texts joined by "\n" and this
+   * gives each turn's role and length (src/chat/turns.ts). Absent on every other record.
+   */
+  turns?: Turn[];
   /** Set by the tokenize stage. */
   tokens?: Uint32Array;
+  /**
+   * Set by the tokenize stage for a conversation: where its turns and targets fall in `tokens`
+   * (src/chat/layout.ts). Absent on every other record.
+   */
+  chat?: Uint32Array;
   /**
    * Set only where the build engine left the text unread (the pack phase, when nothing there reads
    * it): `text` is then "" and this is the real text's length in UTF-8 bytes.

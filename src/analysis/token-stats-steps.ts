@@ -12,11 +12,12 @@
 // group's counts may pass 2^32 in principle, and doubles hold integers exactly up to 2^53.
 import type { AnalysisSteps } from "./steps.js";
 import type { DocRecord } from "../types.js";
+import { turnSpans } from "../chat/layout.js";
 
 export interface GroupStats {
   documents: number;
   tokens: number;
-  /** Tokens whose prediction counts in the loss if the document is not cut: all but the first. */
+  /** Tokens whose prediction counts in the loss if the document is not cut: all but the first (of a conversation, its trained tokens but the first). */
   target_tokens: number;
   bytes: number;
   bytes_per_token: number;
@@ -30,10 +31,13 @@ class Tally {
   documents = 0;
   tokens = 0;
   bytes = 0;
+  /** Tokens of conversations outside their trained roles (besides each document's first token): not targets. */
+  untrained = 0;
   /** Document length in tokens → documents of that length. */
   readonly hist = new Map<number, number>();
 
-  add(len: number, bytes: number): void {
+  add(len: number, bytes: number, untrained = 0): void {
+    this.untrained += untrained;
     this.documents++;
     this.tokens += len;
     this.bytes += bytes;
@@ -56,7 +60,7 @@ class Tally {
     return {
       documents: n,
       tokens: this.tokens,
-      target_tokens: this.tokens - n,
+      target_tokens: this.tokens - n - this.untrained,
       bytes: this.bytes,
       bytes_per_token: this.tokens ? this.bytes / this.tokens : 0,
       mean_tokens: n ? this.tokens / n : 0,
@@ -85,6 +89,15 @@ interface Entry {
   bytes: number;
   at: number;
   n: number;
+  /** Present only when not 0 (conversations), so other builds' files do not change. */
+  untrained?: number;
+}
+
+/** A conversation's targets when it is not cut: its trained tokens, less its first token if that is one. */
+function trainedTargets(layout: Uint32Array): number {
+  let n = 0;
+  for (const t of turnSpans(layout)) n += t.end - t.learn;
+  return turnSpans(layout).some((t) => t.learn === 0 && t.end > 0) ? n - 1 : n;
 }
 
 /** Train, val, test first, then other split names by name: the order of the one-pass analyzer. */
@@ -106,8 +119,9 @@ export const tokenStatsSteps: AnalysisSteps = {
             const n = r.tokens?.length ?? 0;
             const bytes = r.textBytes ?? Buffer.byteLength(r.text);
             const split = r.split ?? "train";
-            t.get(split, r.source).add(n, bytes);
-            t.get(split, "*").add(n, bytes);
+            const untrained = r.chat && n > 0 ? n - 1 - trainedTargets(r.chat) : 0;
+            t.get(split, r.source).add(n, bytes, untrained);
+            t.get(split, "*").add(n, bytes, untrained);
           },
           async finish() {
             const entries: Entry[] = [];
@@ -115,7 +129,7 @@ export const tokenStatsSteps: AnalysisSteps = {
             for (const [split, bySource] of t.bySplit)
               for (const [source, tally] of bySource) {
                 const lengths = [...tally.hist.keys()].sort((a, b) => a - b);
-                entries.push({ split, source, documents: tally.documents, tokens: tally.tokens, bytes: tally.bytes, at: pairs.length / 2, n: lengths.length });
+                entries.push({ split, source, documents: tally.documents, tokens: tally.tokens, bytes: tally.bytes, at: pairs.length / 2, n: lengths.length, ...(tally.untrained ? { untrained: tally.untrained } : {}) });
                 for (const len of lengths) pairs.push(len, tally.hist.get(len)!);
               }
             // A group without records writes nothing: its files read as empty.
@@ -146,6 +160,7 @@ export const tokenStatsSteps: AnalysisSteps = {
         t.documents += e.documents;
         t.tokens += e.tokens;
         t.bytes += e.bytes;
+        t.untrained += e.untrained ?? 0;
         for (let i = e.at; i < e.at + e.n; i++) t.hist.set(pairs[2 * i], (t.hist.get(pairs[2 * i]) ?? 0) + pairs[2 * i + 1]);
       }
     }

@@ -39,6 +39,9 @@ const HAS_SPLIT = 1;
 const HAS_CLUSTER = 2;
 const TOKENS16 = 4;
 const TOKENS32 = 8;
+// A conversation's turns (text side) and token layout: absent on every other record, whose bytes do not change.
+const HAS_TURNS = 16;
+const HAS_CHAT = 32;
 
 function isEmpty(o: object): boolean {
   for (const k in o) if (Object.hasOwn(o, k)) return false;
@@ -108,7 +111,7 @@ export class FrameWriter {
     const start = this.begin(REC);
     const t = r.tokens;
     const flagsAt = this.at;
-    this.u8((r.split !== undefined ? HAS_SPLIT : 0) | (r.cluster !== undefined ? HAS_CLUSTER : 0) | (t ? TOKENS16 : 0));
+    this.u8((r.split !== undefined ? HAS_SPLIT : 0) | (r.cluster !== undefined ? HAS_CLUSTER : 0) | (t ? TOKENS16 : 0) | (r.turns ? HAS_TURNS : 0) | (r.chat ? HAS_CHAT : 0));
     this.f64(r.seq);
     this.u32(r.origin.line);
     this.str(r.id);
@@ -119,6 +122,20 @@ export class FrameWriter {
     this.str(isEmpty(r.meta) ? "" : JSON.stringify(r.meta));
     if (r.split !== undefined) this.str(r.split);
     if (r.cluster !== undefined) this.str(r.cluster);
+    if (r.turns) {
+      this.room(4);
+      this.u32(r.turns.length);
+      for (const turn of r.turns) {
+        this.str(turn.role);
+        this.room(4);
+        this.u32(turn.chars);
+      }
+    }
+    if (r.chat) {
+      this.room(4 + 4 * r.chat.length);
+      this.u32(r.chat.length);
+      for (const v of r.chat) this.u32(v);
+    }
     if (t) {
       this.room(4 + t.length * 4);
       this.u32(t.length);
@@ -283,6 +300,18 @@ function decodeBody(b: Buffer, start: number, o?: ReadOptions): UnitEvent {
     if (utf8) r.utf8 = utf8;
     if (flags & HAS_SPLIT) r.split = f.str();
     if (flags & HAS_CLUSTER) r.cluster = f.str();
+    if (flags & HAS_TURNS) {
+      const n = f.u32();
+      const turns = new Array(n);
+      for (let k = 0; k < n; k++) turns[k] = { role: f.str(), chars: f.u32() };
+      r.turns = turns;
+    }
+    if (flags & HAS_CHAT) {
+      const n = f.u32();
+      const chat = new Uint32Array(n);
+      for (let k = 0; k < n; k++) chat[k] = f.u32();
+      r.chat = chat;
+    }
     if (flags & (TOKENS16 | TOKENS32)) r.tokens = f.tokens((flags & TOKENS32) !== 0);
     return { k: "rec", r };
   }

@@ -5,11 +5,12 @@ import type { CommandModule } from "yargs";
 import { readManifest, type Manifest } from "../output/manifest.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import { readNpyRow } from "../pack/npy-row.js";
-import { describeRow, originText, rowTable, rowText } from "../pack/row-report.js";
+import { describeRow, learnFromOrigins, originText, rowTable, rowText, TRAINED_CLOSE, TRAINED_OPEN } from "../pack/row-report.js";
 import { readOrigins, type OriginLine } from "../pack/origins.js";
 import { buildEncoder } from "../pack/build-tokenizer.js";
 import { maskSvg } from "../pack/mask-svg.js";
 import { maskPng } from "../pack/mask-png.js";
+import { targetMaskOf } from "../output/shard-writer.js";
 
 interface Args {
   dir: string;
@@ -77,13 +78,15 @@ export const inspectCommand: CommandModule<object, Args> = {
     const segments = await readRow(args.dir, shard.segments, row, m.length);
     const origins = await rowOrigins(args.dir, shard.origins, row);
     const enc = await buildEncoder(args.dir, m, args.tokenizer);
-    const input = { tokens, segments, decode: (ids: ArrayLike<number>) => enc.decode(ids), eosId: m.tokenizer.eos_id, eosAppended: m.tokenizer.eos };
+    const learn = learnFromOrigins(origins, m.length);
+    const input = { tokens, segments, decode: (ids: ArrayLike<number>) => enc.decode(ids), eosId: m.tokenizer.eos_id, eosAppended: m.tokenizer.eos, ...(learn ? { learn } : {}) };
     const report = describeRow(input);
     const where = `${shard.tokens.replace(/\.tokens\.npy$/, "")} row ${row}`;
 
     if (args.mask !== undefined) {
       const title = `${args.split} block ${args.block} — attention mask (${where})`;
-      const bytes = kind === "png" ? maskPng(segments).png : maskSvg(segments, { title }).svg;
+      const targets = learn ? targetMaskOf(segments, m.length, learn) : undefined;
+      const bytes = kind === "png" ? maskPng(segments, 800, targets).png : maskSvg(segments, { title, ...(targets ? { targets } : {}) }).svg;
       await writeFile(args.mask, bytes).catch((err) => {
         throw new SiftpackError("SP_OUTPUT", `${args.mask}: cannot write the mask picture: ${describeSystemError(err)}`, { cause: err });
       });
@@ -96,6 +99,7 @@ export const inspectCommand: CommandModule<object, Args> = {
     const pieces = report.pieces.filter((p) => p.segment !== 0).length;
     let out = `${args.split} block ${args.block} of ${blocks} (0–${blocks - 1}) · ${where} · ${m.tokenizer.name}\n`;
     out += `${report.length} tokens: ${pieces} document piece${pieces === 1 ? "" : "s"}, ${report.document_tokens} document tokens, ${report.padding} padding, ${report.targets} targets\n`;
+    if (learn) out += `conversation pieces: the tokens trained on (targets) are between ${TRAINED_OPEN} and ${TRAINED_CLOSE}\n`;
     if (origins === undefined) out += `(no origins index: ${args.dir} was built before siftpack/2; rebuild to see which record each piece came from)\n`;
     out += "\n";
     if (args.ids && origins) out += origins.map((o) => `segment ${o.segment}: ${originText(o)}\n`).join("") + "\n";

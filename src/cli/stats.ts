@@ -2,7 +2,7 @@
 import type { CommandModule } from "yargs";
 import { readManifest } from "../output/manifest.js";
 import { statsFigures } from "../report/figures.js";
-import { lengthTable, mixtureLines, pct, recordsLine, splitTable, table } from "./summary.js";
+import { conversationTable, lengthTable, mixtureLines, pct, recordsLine, splitTable, table } from "./summary.js";
 import type { GroupStats } from "../analysis/token-stats-steps.js";
 
 interface Args {
@@ -25,6 +25,8 @@ export const statsCommand: CommandModule<object, Args> = {
     out += splitTable(m, { detail: true });
     out += "  cut docs: documents placed in two or more pieces; lost targets: tokens that are not targets only because of a cut;\n";
     out += "  continuation: tokens in the later pieces of cut documents (they see only part of their document)\n";
+    const conversations = conversationTable(m);
+    if (conversations) out += "\nconversations (tokens per role include the role's markers; trained: the roles in train_on, as laid out)\n" + conversations;
     const lengths = lengthTable(m);
     if (lengths) out += "\ndocument lengths in tokens (end-of-text included), documents per split\n" + lengths;
     out += "\n" + recordsLine(m) + "\n";

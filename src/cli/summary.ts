@@ -29,6 +29,19 @@ export function splitTable(m: Manifest, opts: { detail?: boolean } = {}): string
   return table(rows);
 }
 
+/** Conversations per split (only for a build that has them): turns, tokens per role, the share trained on, cuts and drops. */
+export function conversationTable(m: Manifest): string {
+  const splits = Object.entries(m.splits).filter(([, s]) => s.conversations);
+  if (splits.length === 0) return "";
+  const roles = [...new Set(splits.flatMap(([, s]) => Object.keys(s.conversations!.tokens_by_role)))];
+  const rows: (string | number)[][] = [["split", "conversations", "turns", "min-max turns", ...roles.map((r) => `${r} tokens`), "trained", "trained %", "cut at turns", "cut anywhere", "left out"]];
+  for (const [name, s] of splits) {
+    const c = s.conversations!;
+    rows.push([name, c.conversations, c.turns, `${c.min_turns}-${c.max_turns}`, ...roles.map((r) => c.tokens_by_role[r] ?? 0), c.trained_tokens, pct(c.trained_tokens, c.tokens), c.cut_at_turns, c.cut_anywhere, c.dropped]);
+  }
+  return table(rows);
+}
+
 /** Document lengths per split in power-of-two buckets, one row per bucket; empty when the manifest has no histograms. */
 export function lengthTable(m: Manifest): string {
   const splits = Object.entries(m.splits).filter(([, s]) => Array.isArray(s.length_histogram));
@@ -103,6 +116,7 @@ export function formatSummary(dir: string, m: Manifest): string {
     skippedRulesLine(m) +
     decontaminationLines(m) +
     mixtureLines(m) +
-    splitTable(m)
+    splitTable(m) +
+    conversationTable(m)
   );
 }

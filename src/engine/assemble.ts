@@ -10,6 +10,7 @@ import { formOf } from "../stages/stage.js";
 import { TRAINED_FILE } from "../tokenizer/index.js";
 import { crashPoint } from "../lib/crash-point.js";
 import type { LedgerCounts } from "../output/ledger.js";
+import { mergeConversationStats } from "../chat/tally.js";
 import { paddingFraction, type SplitStats, type WrittenFile } from "../output/shard-writer.js";
 import { LengthHistogram } from "../pack/length-histogram.js";
 import { freeName } from "../lib/numbered-name.js";
@@ -231,6 +232,7 @@ function mergeSplits(list: Record<string, SplitStats>[], length: number): Record
       if (!h) histograms.set(name, (h = new LengthHistogram()));
       h.addBuckets(s.length_histogram);
       m.shards.push(...s.shards);
+      if (s.conversations) m.conversations = mergeConversationStats(m.conversations ? [m.conversations, s.conversations] : [s.conversations]);
     }
   }
   for (const [name, m] of Object.entries(out)) {

@@ -59,7 +59,8 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
       let p = pending();
       for await (const r of input) {
         let hit: Uint32Array | undefined;
-        if (cache) {
+        // A conversation's ids come with its layout, which the store does not hold: always computed.
+        if (cache && !r.turns) {
           const id = unitId(r.source, r.origin.file);
           if (reading?.id !== id) {
             reading?.reader?.close();
@@ -95,6 +96,7 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
         for (let i = 0; i < p.records.length; i++) {
           const r = p.records[i];
           let tokens = p.cached[i];
+          let chat: Uint32Array | undefined;
           if (!tokens) {
             const got = computed[next++];
             if (got.k === "drop") {
@@ -103,8 +105,9 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
             }
             if (got.k !== "rec") throw new Error(`tokenizing: a ${got.k} frame came back for a record`);
             tokens = got.r.tokens!;
+            chat = got.r.chat;
           }
-          if (cache) {
+          if (cache && !r.turns) {
             const id = unitId(r.source, r.origin.file);
             if (writing?.id !== id) {
               await closeWriting(true);
@@ -115,6 +118,7 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
             if (writing.writer.backlog > 0) await writing.writer.settle();
           }
           r.tokens = tokens;
+          if (chat) r.chat = chat;
           yield r;
         }
       }

@@ -6,7 +6,8 @@ import { SiftpackError } from "../errors.js";
 import { join } from "node:path";
 import { readSourceFile, RecordMapper } from "../sources/source.js";
 import { outputSettings } from "../stages/output-settings.js";
-import { loadEncoding } from "../tokenizer/index.js";
+import { loadEncoding, TokenBuffer } from "../tokenizer/index.js";
+import { CompiledTemplate } from "../chat/template.js";
 import type { CheckedPipeline } from "../pipeline/preflight.js";
 import type { Encoder } from "../tokenizer/encoder.js";
 import { askedTokens, EPOCH_WARNING, epochWarning, overMessage, REPEAT_FINDING } from "./mixture.js";
@@ -49,6 +50,9 @@ export async function estimateMixture(p: CheckedPipeline): Promise<MixtureEstima
   const trained = tok?.options?.train !== undefined;
   const encoder: Encoder = trained ? loadEncoding("gpt2") : out.encoder();
   const extra = (out.eos ? 1 : 0) + (out.bos ? 1 : 0);
+  // A conversation is counted as rendered, its template's markers included.
+  const template = tok?.options?.template ? new CompiledTemplate(tok.options.template) : undefined;
+  const buf = new TokenBuffer();
   const split = p.config.stages.find((s) => s.name === "split");
   const holdout = split ? Object.values((split.options?.holdout ?? {}) as Record<string, number>).reduce((a, x) => a + x, 0) : 0;
   const trainFraction = Math.max(0, 1 - holdout);
@@ -72,7 +76,7 @@ export async function estimateMixture(p: CheckedPipeline): Promise<MixtureEstima
         for await (const e of readSourceFile(source, p.baseDir, f, mapper)) {
           if (e.kind !== "record") continue;
           records++;
-          tokens += encoder.encode(e.text).length + extra;
+          tokens += e.turns && template && !trained ? template.encode(encoder, e, out.bos, out.eos, buf).tokens.length : encoder.encode(e.text).length + extra;
         }
       } catch (err) {
         // A file a run would fail on is the run's to report; the estimate goes on without it.

@@ -18,6 +18,9 @@ import { ShardWriter, type Emit, type SplitStats, type WrittenFile } from "../ou
 import type { AnalysisSteps } from "../analysis/steps.js";
 import type { DocRecord, StageContext } from "../types.js";
 import type { QuarantineEntry } from "../sources/source.js";
+import { ConversationTally } from "../chat/tally.js";
+import { longestUncut, questionEdges, turnEdges } from "../chat/layout.js";
+import type { CutEdges } from "../pack/packer.js";
 import { dropsFile, fixFromRead, keyedDirs, materializes, recordsBefore, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
 
 /** What one group leaves for assemble (group.json). */
@@ -67,6 +70,12 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       writers.set(split, (w = { writer, packer }));
     }
     return w;
+  };
+  const talks = new Map<string, ConversationTally>();
+  const talkFor = (split: string) => {
+    let t = talks.get(split);
+    if (!t) talks.set(split, (t = new ConversationTally(o.out.roles ?? [])));
+    return t;
   };
   const weights = new Map(config.sources.map((s) => [s.name, s.weight]));
   // With a mixture, a train record's copies come from the plan made of every unit's token figures.
@@ -138,13 +147,23 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
           ledger.dropped(r, "subsampled", { share: +bySource.get(r.source)!.share.toFixed(6) });
           return;
         }
+        const fit = r.chat ? conversationFit(r, pack) : undefined;
+        if (fit?.drop) {
+          ledger.dropped(r, fit.drop, { tokens: r.tokens!.length, length: pack.length });
+          writerFor(split);
+          talkFor(split).dropped();
+          return;
+        }
         ledger.kept(r, { ...(n !== 1 ? { copies: n } : {}), ...(part > 0 ? { part_tokens: part } : {}) });
         const { writer, packer } = writerFor(split);
-        // Each piece's origin (as the ledger names the record) goes with it into the shard's origins index.
-        const origin = { source: r.source, id: r.id, file: r.origin.file, line: r.origin.line };
-        for (let c = 0; c < n; c++) packer.add(r.tokens!, c === 0 ? origin : { ...origin, copy: c });
-        // A mixture's part copy: the record's first tokens, as its last copy (README, Mixtures).
-        if (part > 0) packer.add(r.tokens!.subarray(0, part), { ...origin, ...(n > 0 ? { copy: n } : {}), part });
+        if (r.chat) talkFor(split).packed(r.chat, r.tokens!.length, fit!.cut);
+        // Each piece's origin (as the ledger names the record) goes with it into the shard's origins index;
+        // a conversation's also carries its layout, from which the shard writer masks the untrained tokens.
+        const origin = { source: r.source, id: r.id, file: r.origin.file, line: r.origin.line, ...(r.chat ? { chat: r.chat } : {}) };
+        for (let c = 0; c < n; c++) packer.add(r.tokens!, c === 0 ? origin : { ...origin, copy: c }, fit?.edges);
+        // A mixture's part copy: the record's first tokens, as its last copy (README, Mixtures); a
+        // conversation's is cut at turn edges where they keep its pieces within a block.
+        if (part > 0) packer.add(r.tokens!.subarray(0, part), { ...origin, ...(n > 0 ? { copy: n } : {}), part }, fit?.edges && longestUncut(r.chat!, part) <= pack.length ? { ...fit.edges, at: fit.edges.at.filter((e) => e < part) } : undefined);
         for (const f of feeds) await f.add(r);
         if (writer.pending > 0) await writer.writePending();
       };
@@ -168,8 +187,15 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
     const ends: Promise<void>[] = [];
     for (const { writer, packer } of writers.values()) {
       packer.finish();
-      ends.push(writer.finish().then(() => void Object.assign(writer.stats, packer.stats)));
+      ends.push(
+        writer.finish().then(() => {
+          Object.assign(writer.stats, packer.stats);
+          // A conversation cut where a turn not trained on starts loses no target there.
+          writer.stats.targets_lost_to_cuts -= writer.untrainedCutStarts;
+        }),
+      );
     }
+    for (const [split, t] of talks) writers.get(split)!.writer.stats.conversations = t.s;
     ends.push(ledger.close());
     const failed = (await Promise.allSettled(ends)).find((r) => r.status === "rejected");
     if (failed) throw (failed as PromiseRejectedResult).reason;
@@ -186,6 +212,22 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
   await writeFile(join(dir, "group.json"), JSON.stringify(result) + "\n");
   env.log.debug({ group: group.g, units: group.units.length }, "group packed");
   return result;
+}
+
+/**
+ * How a conversation goes into the blocks: whole when it fits; longer, by long_conversations: cut at
+ * its turn edges (left out when one turn with its markers is longer than a block), left out, or cut
+ * like any document (and always with concat, which cuts at every block edge).
+ */
+function conversationFit(r: DocRecord, pack: OutputSettings["pack"]): { edges?: CutEdges; cut: "none" | "at_turns" | "anywhere"; drop?: string } {
+  const n = r.tokens!.length;
+  const L = pack.length;
+  if (n <= L) return { cut: "none" };
+  const mode = pack.long_conversations ?? "at_turns";
+  if (mode === "drop") return { cut: "none", drop: "conversation-too-long" };
+  if (mode === "anywhere" || pack.strategy === "concat") return { cut: "anywhere" };
+  if (longestUncut(r.chat!, n) > L) return { cut: "none", drop: "turn-too-long" };
+  return { edges: { at: turnEdges(r.chat!), preferred: questionEdges(r.chat!) }, cut: "at_turns" };
 }
 
 function dropOf(e: Extract<UnitEvent, { k: "drop" }>): { r: DocRecord; reason: string; detail?: Record<string, unknown> } {

@@ -107,7 +107,7 @@ async function computeUnit(env: TaskEnv, u: number, pool: RecordPool, path: stri
       }
       const i = mapper.rows - 1;
       if (item.kind === "bad") w.bad(i, item.entry);
-      else w.rec({ id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i });
+      else w.rec({ id: item.id, source: item.source, text: item.text, meta: item.meta, origin: item.origin, seq: i, ...(item.turns ? { turns: item.turns } : {}) });
       if (++n >= BATCH_RECORDS || w.length >= BATCH_BYTES) {
         yield w.take();
         n = 0;

@@ -6,7 +6,9 @@ import { writeFileAtomic } from "./atomic.js";
 import { hex64, loadHasher } from "../lib/hash.js";
 import type { HistogramBucket } from "../pack/length-histogram.js";
 import type { RowPiece } from "../pack/packer.js";
-import { originLines } from "../pack/origins.js";
+import { originLines, type SegmentOrigin } from "../pack/origins.js";
+import { clearUntrained } from "../chat/layout.js";
+import type { ConversationStats } from "../chat/tally.js";
 
 export type Emit = "positions" | "target_mask" | "cu_seqlens";
 
@@ -45,6 +47,8 @@ export interface SplitStats {
   /** Document lengths in tokens, power-of-two buckets [min, max]. */
   length_histogram: HistogramBucket[];
   shards: ShardEntry[];
+  /** Present only when the split holds conversations: what packing did with them (src/chat/tally.ts). */
+  conversations?: ConversationStats;
 }
 
 export interface ShardWriterOptions {
@@ -71,11 +75,22 @@ export class ShardWriter {
   private segments: Uint32Array;
   private rows = 0;
   private pieces: (readonly RowPiece[])[] = [];
-  private readonly full: { tokens: Uint32Array; segments: Uint32Array; rows: number; pieces: (readonly RowPiece[])[] }[] = [];
+  /**
+   * 0 where a token may not be a target whatever its segment says (a conversation's tokens outside
+   * the trained roles); made for a shard only once a conversation reaches it, so a shard without
+   * one is written exactly as before.
+   */
+  private learn: Uint8Array | undefined;
+  private readonly full: { tokens: Uint32Array; segments: Uint32Array; learn?: Uint8Array; rows: number; pieces: (readonly RowPiece[])[] }[] = [];
   private shardIndex = 0;
   /** The shard being written, if any. */
   private writing: Promise<void> = Promise.resolve();
   readonly files: WrittenFile[] = [];
+  /**
+   * Conversation pieces after a cut whose first token is not trained on: the cut cost no target there
+   * (the packer counts one lost target per cut; the pack phase takes these off).
+   */
+  untrainedCutStarts = 0;
   // Key order here is the order in manifest.json; the packer fills documents and the cut counts.
   readonly stats: SplitStats = {
     documents: 0,
@@ -107,13 +122,25 @@ export class ShardWriter {
     this.tokens.set(tokens, this.rows * L);
     this.segments.set(segments, this.rows * L);
     if (this.o.origins) this.pieces.push(pieces);
+    let learn: Uint8Array | undefined;
+    if (pieces.some((p) => (p.doc as SegmentOrigin | undefined)?.chat)) {
+      this.learn ??= new Uint8Array(this.tokens.length).fill(1);
+      learn = this.learn.subarray(this.rows * L, (this.rows + 1) * L);
+      learnOfRow(segments, pieces, learn);
+      let start = 0;
+      for (let k = 0; k < pieces.length; k++) {
+        if (pieces[k].offset > 0 && (pieces[k].doc as SegmentOrigin | undefined)?.chat && learn[start] === 0) this.untrainedCutStarts++;
+        while (start < L && segments[start] === k + 1) start++;
+      }
+    }
     this.rows++;
-    this.countRow(segments);
+    this.countRow(segments, learn);
     if (this.rows === this.o.shardBlocks) {
-      this.full.push({ tokens: this.tokens, segments: this.segments, rows: this.rows, pieces: this.pieces });
+      this.full.push({ tokens: this.tokens, segments: this.segments, learn: this.learn, rows: this.rows, pieces: this.pieces });
       // The next shard of a split that filled one is likely full too: its whole size at once.
       this.tokens = new Uint32Array(this.o.shardBlocks * L);
       this.segments = new Uint32Array(this.o.shardBlocks * L);
+      this.learn = undefined;
       this.pieces = [];
       this.rows = 0;
     }
@@ -127,9 +154,14 @@ export class ShardWriter {
     segments.set(this.segments);
     this.tokens = tokens;
     this.segments = segments;
+    if (this.learn) {
+      const learn = new Uint8Array(rows * this.o.length).fill(1);
+      learn.set(this.learn);
+      this.learn = learn;
+    }
   }
 
-  private countRow(seg: Uint32Array): void {
+  private countRow(seg: Uint32Array, learn?: Uint8Array): void {
     const s = this.stats;
     s.blocks++;
     // A token is a target when the token before it is of the same document (segment ids are never -1).
@@ -139,7 +171,7 @@ export class ShardWriter {
     for (let i = 0; i < seg.length; i++) {
       const v = seg[i];
       if (v === 0) padding++;
-      else if (v === prev) targets++;
+      else if (v === prev && (!learn || learn[i])) targets++;
       prev = v;
     }
     s.padding_tokens += padding;
@@ -160,7 +192,7 @@ export class ShardWriter {
     while (this.full.length > 0) {
       const shard = this.full.shift()!;
       await this.writing;
-      this.writing = this.writeShard(shard.tokens, shard.segments, shard.rows, shard.pieces);
+      this.writing = this.writeShard(shard.tokens, shard.segments, shard.rows, shard.pieces, shard.learn);
       // Observed by the next writePending or by finish.
       this.writing.catch(() => {});
     }
@@ -170,14 +202,15 @@ export class ShardWriter {
   async finish(): Promise<void> {
     await this.writePending();
     await this.writing;
-    if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows, this.pieces);
+    if (this.rows > 0) await this.writeShard(this.tokens, this.segments, this.rows, this.pieces, this.learn);
     this.rows = 0;
+    this.learn = undefined;
     this.pieces = [];
     const s = this.stats;
     s.padding_fraction = paddingFraction(s.padding_tokens, s.blocks, this.o.length);
   }
 
-  private async writeShard(tokens: Uint32Array, segments: Uint32Array, rows: number, pieces: (readonly RowPiece[])[]): Promise<void> {
+  private async writeShard(tokens: Uint32Array, segments: Uint32Array, rows: number, pieces: (readonly RowPiece[])[], learn?: Uint8Array): Promise<void> {
     const L = this.o.length;
     const dir = join(this.o.outDir, this.o.split);
     await mkdir(dir, { recursive: true });
@@ -191,7 +224,7 @@ export class ShardWriter {
       segments: await this.writeArray(`${stem}.segments.npy`, seg, this.o.segmentDtype, [rows, L]),
     };
     if (this.o.emit.includes("positions")) entry.positions = await this.writeArray(`${stem}.positions.npy`, positionsOf(seg, L), this.o.segmentDtype, [rows, L]);
-    if (this.o.emit.includes("target_mask")) entry.target_mask = await this.writeArray(`${stem}.target_mask.npy`, targetMaskOf(seg, L), "uint8", [rows, L]);
+    if (this.o.emit.includes("target_mask")) entry.target_mask = await this.writeArray(`${stem}.target_mask.npy`, targetMaskOf(seg, L, learn), "uint8", [rows, L]);
     if (this.o.emit.includes("cu_seqlens")) {
       const { lens, offsets } = cuSeqlensOf(seg, L);
       entry.cu_seqlens = await this.writeArray(`${stem}.cu_seqlens.npy`, lens, "int32", [lens.length]);
@@ -241,11 +274,31 @@ export function positionsOf(seg: Uint32Array, L: number): Uint32Array {
   return out;
 }
 
-/** 1 where the token's prediction counts in the loss: same non-zero segment as the token before it in the row. */
-export function targetMaskOf(seg: Uint32Array, L: number): Uint32Array {
+/**
+ * 1 where the token's prediction counts in the loss: same non-zero segment as the token before it in
+ * the row, and, given `learn`, 1 there too (a conversation's trained tokens: see learnOfRow).
+ */
+export function targetMaskOf(seg: Uint32Array, L: number, learn?: ArrayLike<number>): Uint32Array {
   const out = new Uint32Array(seg.length);
-  for (let i = 0; i < seg.length; i++) out[i] = seg[i] !== 0 && i % L !== 0 && seg[i - 1] === seg[i] ? 1 : 0;
+  for (let i = 0; i < seg.length; i++) out[i] = seg[i] !== 0 && i % L !== 0 && seg[i - 1] === seg[i] && (!learn || learn[i] !== 0) ? 1 : 0;
   return out;
+}
+
+/**
+ * A row's learn mask (1 where a token may be a target): 1 for every piece of a plain document, and
+ * for a conversation's piece 1 only on its trained roles' tokens (text and closing marker), from the
+ * layout its origin carries. Pieces are the row's segments in order (segment k is piece k − 1).
+ */
+export function learnOfRow(seg: ArrayLike<number>, pieces: readonly RowPiece[], out: Uint8Array): void {
+  out.fill(1);
+  let start = 0;
+  for (let k = 0; k < pieces.length; k++) {
+    let end = start;
+    while (end < seg.length && seg[end] === k + 1) end++;
+    const chat = (pieces[k].doc as SegmentOrigin | undefined)?.chat;
+    if (chat) clearUntrained(chat, pieces[k].offset, end - start, out, start);
+    start = end;
+  }
 }
 
 /**

@@ -1,5 +1,5 @@
 // `best-fit` packing: whole documents placed by best-fit decreasing into rows, within a bounded look-ahead buffer.
-import { RowPacker, type RowSink } from "./packer.js";
+import { pieceStarts, RowPacker, type CutEdges, type RowSink } from "./packer.js";
 import { CapacityIndex } from "./capacity-index.js";
 
 /**
@@ -35,14 +35,24 @@ export class BestFitPacker extends RowPacker {
     this.index = new CapacityIndex(length);
   }
 
-  add(doc: Uint32Array, ref?: unknown): void {
+  add(doc: Uint32Array, ref?: unknown, edges?: CutEdges): void {
     if (doc.length === 0) return;
     const L = this.length;
-    this.tally.document(doc.length, Math.ceil(doc.length / L), Math.min(doc.length, L));
-    for (let at = 0; at < doc.length; at += L) {
-      if (this.count === this.bufferDocs) this.packBuffer();
-      this.push(doc.subarray(at, Math.min(at + L, doc.length)), ref, at);
+    if (!edges || doc.length <= L) {
+      this.tally.document(doc.length, Math.ceil(doc.length / L), Math.min(doc.length, L));
+      for (let at = 0; at < doc.length; at += L) {
+        if (this.count === this.bufferDocs) this.packBuffer();
+        this.push(doc.subarray(at, Math.min(at + L, doc.length)), ref, at);
+      }
+      return;
     }
+    // A conversation longer than a row: pieces of whole turns, each packed like a document.
+    const starts = pieceStarts(doc.length, L, edges);
+    this.tally.document(doc.length, starts.length, starts.length > 1 ? starts[1] : doc.length);
+    starts.forEach((at, k) => {
+      if (this.count === this.bufferDocs) this.packBuffer();
+      this.push(doc.subarray(at, k + 1 < starts.length ? starts[k + 1] : doc.length), ref, at);
+    });
   }
 
   finish(): void {

@@ -11,9 +11,10 @@ const MARGIN = 12;
  * left white. With at least one pixel per token that is the exact mask, cell by cell; a long row is
  * shrunk to `maxSide` pixels, and a pixel that holds any allowed pair is painted, so even a
  * one-token document stays visible. Ticks in the top and left margins mark where each piece (and
- * the padding) begins.
+ * the padding) begins. Given `targets` (a row with conversations), a black bar in the right margin
+ * marks the query rows whose token is a target.
  */
-export function maskPng(segments: ArrayLike<number>, maxSide = 800): { png: Uint8Array; width: number; height: number } {
+export function maskPng(segments: ArrayLike<number>, maxSide = 800, targets?: ArrayLike<number>): { png: Uint8Array; width: number; height: number } {
   const L = segments.length;
   const side = pictureSide(L, maxSide);
   const W = side + 2 * MARGIN;
@@ -56,6 +57,13 @@ export function maskPng(segments: ArrayLike<number>, maxSide = 800): { png: Uint
     for (let d = 2; d < MARGIN - 1; d++) {
       put(p, d, dark);
       put(d, p, dark);
+    }
+  }
+  if (targets) {
+    for (let y = 0; y < side; y++) {
+      let any = false;
+      for (let i = lo(y); i < hi(y) && !any; i++) any = targets[i] !== 0;
+      if (any) for (let d = 2; d < MARGIN - 1; d++) put(MARGIN + side + d, MARGIN + y, [0, 0, 0]);
     }
   }
   return { png: encodePng(W, W, px), width: W, height: W };

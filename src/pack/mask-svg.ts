@@ -15,6 +15,8 @@ export interface MaskPictureOptions {
   title: string;
   /** Largest side of the mask area in pixels (default 800). */
   maxSide?: number;
+  /** The row's target mask, for a row holding conversations: drawn as a bar beside the mask on the rows trained on. */
+  targets?: ArrayLike<number>;
 }
 
 export interface MaskPicture {
@@ -40,7 +42,7 @@ export function maskSvg(segments: ArrayLike<number>, o: MaskPictureOptions): Mas
   const side = pictureSide(L, maxSide);
   const scale = side / L;
   const step = Math.max(1, Math.ceil(L / side));
-  const [ml, mt, mr, mb] = [64, 76, 24, 64];
+  const [ml, mt, mr, mb] = [64, 76, o.targets ? 40 : 24, o.targets ? 82 : 64];
   // Wide enough for the legend even when the mask is small.
   const W = Math.max(ml + side + mr, 560);
   const H = mt + side + mb;
@@ -86,9 +88,20 @@ export function maskSvg(segments: ArrayLike<number>, o: MaskPictureOptions): Mas
   }
   out.push(`<text x="-8" y="${side + 4}" text-anchor="end" font-size="10" fill="#444">${L}</text>`);
   out.push(`<rect width="${side}" height="${side}" fill="none" stroke="#888"/>`);
+  if (o.targets) {
+    // One bar segment per run of target rows: the queries whose next-token loss counts (a conversation's trained roles).
+    const t = o.targets;
+    for (let i = 0; i < L; ) {
+      let j = i;
+      while (j < L && (t[j] !== 0) === (t[i] !== 0)) j++;
+      if (t[i]) out.push(`<rect x="${side + 6}" y="${px(i)}" width="10" height="${Math.max(0.5, px(j) - px(i))}" fill="#000000"><title>targets: tokens ${i}–${j - 1}</title></rect>`);
+      i = j;
+    }
+  }
   out.push(`</g>`);
   out.push(`<text x="${ml}" y="${mt + side + 24}">filled: query i may attend to key j (j ≤ i, same segment)</text>`);
   out.push(`<text x="${ml}" y="${mt + side + 42}" fill="#444">blank: masked or padding · colours only tell neighbouring pieces apart</text>`);
+  if (o.targets) out.push(`<text x="${ml}" y="${mt + side + 60}" fill="#444">black bar on the right: rows i whose token is a target (the conversation's trained roles)</text>`);
   out.push(`</svg>`);
   return { svg: out.join("\n") + "\n", scale, step };
 }

@@ -2,6 +2,7 @@
 // the input record it came from. Written by the shard writer, read by `inspect`.
 import { readFile } from "node:fs/promises";
 import type { RowPiece } from "./packer.js";
+import { targetRanges } from "../chat/layout.js";
 
 /** Where a packed document came from: the record's source, id, input file and line (as in the ledger). */
 export interface SegmentOrigin {
@@ -13,6 +14,8 @@ export interface SegmentOrigin {
   copy?: number;
   /** A mixture's part copy: it holds the record's first `part` tokens only. */
   part?: number;
+  /** A conversation's token layout (src/chat/layout.ts); not written to the index, which gets `trained` from it. */
+  chat?: Uint32Array;
 }
 
 /** One line of the index: a piece of row `row` (of its shard), tokens [start, end) with segment id `segment`. */
@@ -23,6 +26,8 @@ export interface OriginLine extends SegmentOrigin {
   end: number;
   /** The piece's first token's offset within its document: 0 unless the document was cut before it. */
   offset: number;
+  /** A conversation's piece: the row's token ranges [start, end) of its trained roles (before the segment rule drops each piece's first token). */
+  trained?: [number, number][];
 }
 
 /**
@@ -41,6 +46,7 @@ export function originLines(row: number, segments: Uint32Array, pieces: readonly
     const line: OriginLine = { row, segment, start, end, offset: pieces[k].offset, source: o.source, id: o.id, file: o.file, line: o.line };
     if (o.copy) line.copy = o.copy;
     if (o.part) line.part = o.part;
+    if (o.chat) line.trained = targetRanges(o.chat, pieces[k].offset, end - start).map(([a, b]) => [start + a, start + b]);
     out += JSON.stringify(line) + "\n";
     start = end;
   }

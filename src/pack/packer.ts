@@ -20,7 +20,7 @@ export interface Packer {
    * Takes one document; the array may be reused by the caller after the call returns. `ref` comes
    * back with every piece of the document in the rows (`RowPiece.doc`); packing never looks at it.
    */
-  add(doc: Uint32Array, ref?: unknown): void;
+  add(doc: Uint32Array, ref?: unknown, edges?: CutEdges): void;
   /** Emits whatever is still buffered (padded). */
   finish(): void;
   /** Statistics so far (complete after `finish`). */
@@ -49,7 +49,8 @@ export abstract class RowPacker implements Packer {
     this.sink = sink;
   }
 
-  abstract add(doc: Uint32Array, ref?: unknown): void;
+  /** `edges`: where a document longer than a row may be cut (pieceStarts); strategies that keep documents whole honour them. */
+  abstract add(doc: Uint32Array, ref?: unknown, edges?: CutEdges): void;
   abstract finish(): void;
 
   /** Pads the row from `fill` on and hands it to the sink. */
@@ -76,4 +77,46 @@ export abstract class RowPacker implements Packer {
   get cutDocuments(): number {
     return this.tally.cutDocuments;
   }
+}
+
+/** Where a document may be cut (a conversation's turn edges): offsets, ascending, and the ones to prefer. */
+export interface CutEdges {
+  at: readonly number[];
+  /** Edges where a piece had better start (a conversation's questions: an answer then keeps its question). */
+  preferred?: ReadonlySet<number>;
+}
+
+/**
+ * Where a document of `n` tokens is cut into pieces of at most `length`: every `length` tokens, or,
+ * given `edges`, at the last preferred edge that keeps the piece within `length`, else the last
+ * edge that does. The caller makes sure no stretch between two edges is longer than `length` (so
+ * from any edge the next is within reach). Returns the pieces' start offsets (the first is 0).
+ */
+export function pieceStarts(n: number, length: number, edges?: CutEdges): number[] {
+  const out: number[] = [0];
+  if (!edges) {
+    for (let at = length; at < n; at += length) out.push(at);
+    return out;
+  }
+  const e = edges.at;
+  let at = 0;
+  let k = 0;
+  while (n - at > length) {
+    let cut = -1;
+    let preferred = -1;
+    while (k < e.length && e[k] - at <= length) {
+      if (e[k] > at) {
+        cut = e[k];
+        if (edges.preferred?.has(e[k])) preferred = e[k];
+      }
+      k++;
+    }
+    if (cut < 0) throw new Error(`pieceStarts: no edge within ${length} tokens of ${at}`);
+    const next = preferred > 0 ? preferred : cut;
+    out.push(next);
+    at = next;
+    // Edges passed over after the chosen one are candidates again for the next piece.
+    while (k > 0 && e[k - 1] > at) k--;
+  }
+  return out;
 }

@@ -10,6 +10,24 @@ export interface RowInput {
   /** The end-of-text id, and whether the build appended it to every document (then a piece without it at its end was cut there). */
   eosId: number;
   eosAppended: boolean;
+  /** A row with conversation pieces: 0 where a token is outside its conversation's trained roles (learnFromOrigins). */
+  learn?: Uint8Array;
+}
+
+/** Opens and closes each run of trained tokens in a conversation piece's decoded text. */
+export const TRAINED_OPEN = "⟦";
+export const TRAINED_CLOSE = "⟧";
+
+/** The learn mask of a row from its origins' `trained` ranges; undefined when no piece is a conversation. */
+export function learnFromOrigins(origins: readonly OriginLine[] | undefined, length: number): Uint8Array | undefined {
+  if (!origins?.some((o) => o.trained)) return undefined;
+  const out = new Uint8Array(length).fill(1);
+  for (const o of origins) {
+    if (!o.trained) continue;
+    out.fill(0, o.start, o.end);
+    for (const [a, b] of o.trained) out.fill(1, a, b);
+  }
+  return out;
 }
 
 export interface PieceReport {
@@ -31,14 +49,30 @@ export interface RowReport {
 }
 
 export function describeRow(r: RowInput): RowReport {
+  const target = targetMaskOf(r.segments, r.segments.length, r.learn);
   const pieces: PieceReport[] = segmentRuns(r.segments).map((run) => {
     if (run.segment === 0) return { segment: 0, start: run.start, end: run.end, text: "" };
     const ids = r.tokens.subarray(run.start, run.end);
-    return { segment: run.segment, start: run.start, end: run.end, text: r.decode(ids), ends_with_eos: ids[ids.length - 1] === r.eosId };
+    const conversation = r.learn !== undefined && r.learn.subarray(run.start, run.end).includes(0);
+    const text = conversation ? markedText(r, target, run.start, run.end) : r.decode(ids);
+    return { segment: run.segment, start: run.start, end: run.end, text, ends_with_eos: ids[ids.length - 1] === r.eosId };
   });
   const padding = pieces.filter((p) => p.segment === 0).reduce((a, p) => a + p.end - p.start, 0);
-  const targets = targetMaskOf(r.segments, r.segments.length).reduce((a, v) => a + v, 0);
+  const targets = target.reduce((a, v) => a + v, 0);
   return { length: r.segments.length, pieces, document_tokens: r.segments.length - padding, padding, targets };
+}
+
+/** A conversation piece decoded run by run, its target tokens (the ones trained on) between ⟦ and ⟧. */
+function markedText(r: RowInput, target: Uint32Array, start: number, end: number): string {
+  let out = "";
+  for (let i = start; i < end; ) {
+    let j = i;
+    while (j < end && target[j] === target[i]) j++;
+    const text = r.decode(r.tokens.subarray(i, j));
+    out += target[i] ? TRAINED_OPEN + text + TRAINED_CLOSE : text;
+    i = j;
+  }
+  return out;
 }
 
 /** Where a piece came from, for its boundary line: source, id, file and line, copy, and where in the document it starts if not at 0. */
@@ -74,7 +108,7 @@ export function rowText(report: RowReport, eosAppended: boolean, origins?: reado
 export function rowTable(r: RowInput): string {
   const L = r.segments.length;
   const pos = positionsOf(r.segments, L);
-  const target = targetMaskOf(r.segments, L);
+  const target = targetMaskOf(r.segments, L, r.learn);
   const rows: string[][] = [["index", "segment", "position", "target", "id", "token"]];
   for (let i = 0; i < L; i++) {
     const pad = r.segments[i] === 0;

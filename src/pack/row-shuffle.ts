@@ -1,5 +1,5 @@
 // Row shuffling between a packer and the shard writer: a seeded shuffle buffer of a bounded number of rows.
-import type { Packer, RowPiece, RowSink } from "./packer.js";
+import type { CutEdges, Packer, RowPiece, RowSink } from "./packer.js";
 import type { PackStats } from "./tally.js";
 import { Rng } from "./rng.js";
 
@@ -90,8 +90,8 @@ export class ShuffledPacker implements Packer {
     private readonly shuffle: RowShuffle,
   ) {}
 
-  add(doc: Uint32Array, ref?: unknown): void {
-    this.inner.add(doc, ref);
+  add(doc: Uint32Array, ref?: unknown, edges?: CutEdges): void {
+    this.inner.add(doc, ref, edges);
   }
 
   finish(): void {

@@ -21,7 +21,20 @@ const sourceSchema = obj({
   // Build from what could be read of a file that cannot be read to its end (a cut .gz or .zst, a
   // corrupt Parquet row group); unset, such a file fails the run. No schema default, as for max_line_mb.
   accept_truncated: field(bool()),
+  // A conversation source: each record holds a list of turns (README, Conversations). No schema
+  // default, so other sources resolve (and hash) as before.
+  turns: field(
+    obj({
+      field: field(str({ nonEmpty: true }), { required: true }),
+      role: field(str({ nonEmpty: true }), { default: "role" }),
+      text: field(str({ nonEmpty: true }), { default: "text" }),
+      roles: field(list(str({ nonEmpty: true }), { nonEmpty: true }), { required: true }),
+    }),
+  ),
 });
+
+/** Formats whose records can hold a list of turns. */
+const TURN_FORMATS = ["jsonl", "json", "parquet"];
 
 /** Formats whose readers hold a line (record, file) whole and so have a limit; json and parquet readers do not. */
 const LINE_LIMITED = ["jsonl", "csv", "tsv", "text"];
@@ -155,6 +168,7 @@ export function checkPipelineRules(c: PipelineConfig, issues: Issue[]): void {
   });
   checkMixtureRules(c, sources, issues);
   if (!Array.isArray(c.stages)) return;
+  checkConversationRules(sources, c.stages, issues);
   const at = (n: string) => stages.findIndex((s) => s.name === n);
   const tok = at("tokenize");
   const pack = at("pack");
@@ -245,6 +259,32 @@ function checkMixtureRules(c: PipelineConfig, sources: (SourceConfig | undefined
   if (missing.length) issues.push({ path: ["mixture", "shares"], message: `mixture.shares gives no share to ${missing.map((n) => `"${n}"`).join(", ")}; give every source (or a group holding it) a share, 0 to leave it out of train` });
   // Shares are fractions of one budget; 0.001 of slack lets thirds be written as 0.333.
   if (Object.keys(shares).length > 0 && Math.abs(sum - 1) > 0.001) issues.push({ path: ["mixture", "shares"], message: `mixture.shares sum to ${+sum.toFixed(6)}, not 1; the shares are fractions of the train tokens` });
+}
+
+/** A conversation source needs a format that holds lists and a tokenize template with a place for each of its roles. */
+function checkConversationRules(sources: (SourceConfig | undefined)[], stages: StageEntry[], issues: Issue[]): void {
+  const k = stages.findIndex((s) => s.name === "tokenize");
+  const template = k >= 0 ? stages[k].options?.template : undefined;
+  const templateRoles = template && typeof template.roles === "object" && template.roles !== null ? Object.keys(template.roles) : undefined;
+  const p = stages.findIndex((s) => s.name === "pack");
+  const pack = p >= 0 ? stages[p].options : undefined;
+  if (pack?.strategy === "concat" && pack.long_conversations !== "anywhere" && sources.some((s) => s?.turns))
+    issues.push({ path: ["stages", p, "pack", "strategy"], message: `concat cuts documents at every block edge, inside turns: conversations need best-fit or single (or long_conversations: anywhere to accept cuts inside turns)` });
+  sources.forEach((s, i) => {
+    const t = s?.turns;
+    if (!s || t === undefined || t === null || typeof t !== "object") return;
+    if (typeof s.format === "string" && (FORMATS as readonly string[]).includes(s.format) && !TURN_FORMATS.includes(s.format))
+      issues.push({ path: ["sources", i, "turns"], atKey: true, message: `turns apply to formats ${TURN_FORMATS.join(", ")} (a ${s.format} field cannot hold a list)` });
+    if (k < 0) return;
+    if (templateRoles === undefined) {
+      issues.push({ path: ["stages", k, "tokenize"], atKey: true, message: `source "${s.name}" has turns: tokenize needs a template saying how to render them` });
+      return;
+    }
+    (Array.isArray(t.roles) ? t.roles : []).forEach((r, j) => {
+      if (typeof r === "string" && r !== "" && !templateRoles.includes(r))
+        issues.push({ path: ["sources", i, "turns", "roles", j], message: `role "${r}" has no markers in the tokenize template (its roles are ${templateRoles.join(", ")})` });
+    });
+  });
 }
 
 /** A stage's form kind, or undefined when its options are too broken to say (the schema reports them). */

@@ -9,7 +9,8 @@ import { dirname, resolve } from "node:path";
 import { SiftpackError, describeSystemError, type ErrorCode } from "../errors.js";
 import { listFiles, readSourceFile, RecordMapper } from "../sources/source.js";
 import { resolveProtected } from "../overlap/protected-set.js";
-import { checkTokenizerFiles } from "../stages/tokenize.js";
+import { checkTokenizerFiles, encoderFor, type TokenizeOptions } from "../stages/tokenize.js";
+import { unknownSpecials } from "../chat/template.js";
 import { checkOutputPlace, checkReplaceable } from "../output/output-dir.js";
 import { checkPipelineText, loadedPipeline, outDirOf, problemsMessage, readPipelineText, type LoadedPipeline } from "./load.js";
 import type { Issue, Path } from "./schema.js";
@@ -86,6 +87,15 @@ async function checkProtected(config: CheckedPipeline["config"], baseDir: string
 function checkTokenizers(config: CheckedPipeline["config"], baseDir: string, issues: Issue[], problems: FileProblem[]): void {
   const stages = Array.isArray(config.stages) ? config.stages : [];
   for (const [k, s] of stages.entries()) {
+    if (s.name === "tokenize" && s.options?.template && !s.options.train && !issues.some((i) => i.path[0] === "stages" && i.path[1] === k)) {
+      // A template's [[name]]s are special tokens of this tokenizer (a file's problems are reported below).
+      try {
+        const enc = encoderFor(s.options as TokenizeOptions, baseDir);
+        issues.push(...unknownSpecials(s.options.template, Object.keys(enc.specialTokens), ["stages", k, "tokenize", "template"]));
+      } catch (err) {
+        if (!(err instanceof SiftpackError)) throw err;
+      }
+    }
     if (s.name !== "tokenize" || !isText(s.options?.tokenizer)) continue;
     // Options the schema refused (a tokenizer beside an encoding or `train`) are reported already.
     if (issues.some((i) => i.path[0] === "stages" && i.path[1] === k)) continue;

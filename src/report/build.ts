@@ -10,6 +10,7 @@ import { lengthsSection } from "./lengths.js";
 import { clustersSection, readClusters } from "./clusters.js";
 import { configuredFields, excerpts, withoutInputText, type Excerpt } from "./excerpts.js";
 import { packingSection, pickMaskRow } from "./packing.js";
+import { conversationsSection } from "./conversations.js";
 import { overlapSection } from "./overlap.js";
 import { decontaminationSection } from "./decontamination.js";
 import { provenanceSection } from "./provenance.js";
@@ -50,6 +51,7 @@ export async function buildReport(dir: string, label = dir, o: ReportOptions = {
     texts = await excerpts(dir, m, clusters.summary.largest.map((c) => c.kept), { max: 180, deadline: Date.now() + (o.excerptMs ?? 15_000) });
   }
   const mask = await pickMaskRow(dir, m);
+  const conversations = conversationsSection(m);
   const fields = configuredFields(m);
   const quarantine = await quarantineHead(dir, o.excerpts === false ? (e) => withoutInputText(e, fields) : undefined);
   return page({
@@ -63,6 +65,8 @@ export async function buildReport(dir: string, label = dir, o: ReportOptions = {
       { id: "lengths", title: "Document lengths", nav: "Lengths", html: lengthsSection(m) },
       { id: "clusters", title: "Near-duplicate clusters", nav: "Near-duplicates", html: clustersSection(m, clusters, texts) },
       { id: "packing", title: "Packing: padding and cuts", nav: "Packing", html: packingSection(m, mask) },
+      // Only for a build with conversations: other reports keep their sections.
+      ...(conversations ? [{ id: "conversations", title: "Conversations: turns, roles and trained tokens", nav: "Conversations", html: conversations }] : []),
       { id: "overlap", title: "Overlap between splits", nav: "Overlap", html: overlapSection(m) },
       { id: "decontamination", title: "Decontamination against protected texts", nav: "Decontamination", html: decontaminationSection(m, o.excerpts !== false) },
       { id: "provenance", title: "Inputs, pipeline and build", nav: "Provenance", html: provenanceSection(m) },

@@ -10,6 +10,8 @@ import { compressionOf } from "./open.js";
 import { isBad, isTruncated, type Row, type Truncation } from "./row.js";
 import { lineLimitBytes } from "./lines.js";
 import { kindOf } from "./values.js";
+import { turnsOfRow, type TurnFields } from "../chat/turns.js";
+import type { Turn } from "../types.js";
 
 export type { Format } from "./formats.js";
 
@@ -30,6 +32,8 @@ export interface SourceSpec {
   max_line_mb?: number;
   /** Build from what could be read of a file that cannot be read to its end; unset: such a file fails the run. */
   accept_truncated?: boolean;
+  /** A conversation source: where each record's turns are (then `text` is not read). */
+  turns?: TurnFields;
 }
 
 /** A row that could not become a record; `line` 0 means the whole file. */
@@ -47,6 +51,8 @@ export interface SourceItem {
   text: string;
   meta: Record<string, unknown>;
   origin: { file: string; line: number };
+  /** A conversation's turns (see DocRecord.turns). */
+  turns?: Turn[];
 }
 
 export interface SourceBad {
@@ -211,10 +217,18 @@ export class RecordMapper {
     const { spec } = this;
     // The text reader reports the path it was given (absolute); records carry the portable one.
     const fields = spec.format === "text" ? { ...row.fields, path: file } : row.fields;
-    const textField = spec.format === "text" ? "text" : spec.text;
-    if (!hasField(fields, textField)) return bad(`field "${textField}" is missing`);
-    const text = fields[textField];
-    if (typeof text !== "string") return bad(`field "${textField}" is not a string (got ${kindOf(text)})`);
+    let text: unknown;
+    let turns: Turn[] | undefined;
+    if (spec.turns && spec.format !== "text") {
+      const conv = turnsOfRow(fields, spec.turns);
+      if ("error" in conv) return bad(conv.error);
+      ({ text, turns } = conv);
+    } else {
+      const textField = spec.format === "text" ? "text" : spec.text;
+      if (!hasField(fields, textField)) return bad(`field "${textField}" is missing`);
+      text = fields[textField];
+      if (typeof text !== "string") return bad(`field "${textField}" is not a string (got ${kindOf(text)})`);
+    }
 
     // A part of a file numbers its lines from 1; the engine names its records again once the part's place is known (fixFromRead).
     let id = defaultId(spec, idFile, row.line);
@@ -231,7 +245,9 @@ export class RecordMapper {
 
     const meta: Record<string, unknown> = {};
     for (const name of spec.meta) meta[name] = hasField(fields, name) ? fields[name] : null;
-    return { kind: "record", id, source: spec.name, text, meta, origin: { file, line: row.line } };
+    const item: SourceItem = { kind: "record", id, source: spec.name, text: text as string, meta, origin: { file, line: row.line } };
+    if (turns) item.turns = turns;
+    return item;
   }
 }
 

@@ -1,4 +1,5 @@
 // normalize: Unicode form, line endings, trailing spaces, control and zero-width characters, blank-line runs.
+import { mapTurnTexts } from "../chat/turns.js";
 import { defineStage } from "./stage.js";
 import { bool, field, num, obj, str, type Infer } from "../pipeline/schema.js";
 
@@ -77,7 +78,8 @@ export default defineStage({
   create(o) {
     return async function* normalize(input) {
       for await (const r of input) {
-        r.text = normalizeText(r.text, o);
+        // A conversation's turns are normalized one by one (trim applies to each turn).
+        mapTurnTexts(r, (t) => ({ text: normalizeText(t, o), extra: 0 }));
         yield r;
       }
     };

@@ -19,6 +19,8 @@ export interface OutputSettings {
   eos: boolean;
   /** The packing stage's options (the sink's). */
   pack: PackOptions;
+  /** The conversation template's roles, in the order layouts number them; absent without a template. */
+  roles?: string[];
   /** The tokenizer, given the build file a training tokenize stage wrote (its text), if any. */
   encoder(trainedJson?: string): Encoder;
 }
@@ -39,6 +41,7 @@ export function outputSettings(stages: StageEntry[], baseDir: string): OutputSet
     bos: t.bos,
     eos: t.eos,
     pack,
+    ...(t.template ? { roles: Object.keys(t.template.roles) } : {}),
     // A tokenizer trained in this build keeps the name training gave it: trained@<digest of its file>.
     encoder: (trainedJson) =>
       trainedJson !== undefined

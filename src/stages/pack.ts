@@ -15,6 +15,7 @@ export type { Packer, RowSink } from "../pack/packer.js";
 export type { PackStats } from "../pack/tally.js";
 
 export const STRATEGIES = ["concat", "best-fit", "single"] as const;
+export const LONG_CONVERSATIONS = ["at_turns", "drop", "anywhere"] as const;
 const SPLITS = ["train", "val", "test"] as const;
 /** Pieces best-fit holds before packing them when `buffer_docs` is not given. */
 export const DEFAULT_BUFFER_DOCS = 10_000;
@@ -44,6 +45,10 @@ export const packOptions = refine(
     // and a larger JSONL file is cut into groups of its rows. 32 MB: enough groups for every core on
     // a 50 MB input, and still thousands of blocks per group (the extra padding is measured in the README).
     group_mb: field(num({ min: 0.000001, max: 1e9 }), { default: 32 }),
+    // A conversation longer than the block: cut at turn edges (at_turns, the default), left out with
+    // a ledger reason (drop), or cut like any document (anywhere). No schema default, so a pipeline
+    // without conversations resolves (and hashes) as before.
+    long_conversations: field(str({ oneOf: LONG_CONVERSATIONS })),
   }),
   (o, path, issues) => {
     if (o.buffer_docs !== undefined && o.strategy !== "best-fit")

@@ -4,6 +4,7 @@
 // example"), names, street addresses, numbers written in words and every format not listed
 // below, and it can hit look-alikes. It lowers the amount of personal data in a corpus; it does
 // not make a corpus free of it. The README says so to users.
+import { mapTurnTexts } from "../chat/turns.js";
 import { isIPv6 } from "node:net";
 import { defineStage } from "./stage.js";
 import type { Issue, Path, Schema } from "../pipeline/schema.js";
@@ -237,9 +238,12 @@ export default defineStage({
   create({ kinds }: RedactOptions) {
     return async function* redact(input, ctx) {
       for await (const r of input) {
-        const { text, counts } = redactText(r.text, kinds);
-        r.text = text;
-        for (const kind of kinds) if (counts[kind] > 0) ctx.count(`redact:${kind}`, counts[kind]);
+        // Per turn for a conversation, so a match never spans two turns and the turn edges stay exact.
+        for (const counts of mapTurnTexts(r, (t) => {
+          const { text, counts } = redactText(t, kinds);
+          return { text, extra: counts };
+        }))
+          for (const kind of kinds) if (counts[kind] > 0) ctx.count(`redact:${kind}`, counts[kind]);
         yield r;
       }
       // Every requested kind appears in stage_counts, 0 included, so a clean corpus is visibly checked.

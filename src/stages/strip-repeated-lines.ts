@@ -11,6 +11,7 @@
 // can therefore only be too low, never too high: a line is removed only if it really occurred
 // in at least `min_docs` records (barring a 53-bit hash collision), while some boilerplate may
 // survive when the budget is too small. The manifest reports the pruning (stage_counts).
+import { mapTurnTexts } from "../chat/turns.js";
 import { availableParallelism } from "node:os";
 import { defineStage } from "./stage.js";
 import { keyedStage, type KeyedForm } from "./keyed.js";
@@ -174,11 +175,19 @@ export const stripRepeatedLinesForm: KeyedForm<StripRepeatedLinesOptions> = {
     };
     return (r, _d, ctx) => {
       if (keys.size === 0) return r;
-      const { text, removed } = stripLines(r.text, lookup, o.min_docs);
-      if (removed === 0) return r;
+      // A conversation's turns are stripped one by one (its lines never span two turns, so the counts hold).
+      const before = r.text;
+      const removed = mapTurnTexts(r, (t) => {
+        const { text, removed } = stripLines(t, lookup, o.min_docs);
+        return { text, extra: removed };
+      }).reduce((a, b) => a + b, 0);
+      if (removed === 0) {
+        r.text = before;
+        return r;
+      }
       ctx.count("strip_repeated_lines:lines_removed", removed);
       ctx.count("strip_repeated_lines:records_changed");
-      r.text = text;
+      const text = r.text;
       if (text.trim() === "") {
         ctx.drop(r, "strip_repeated_lines:empty", { lines_removed: removed });
         return undefined;

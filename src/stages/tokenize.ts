@@ -3,6 +3,8 @@ import { isAbsolute, relative, resolve } from "node:path";
 import { SiftpackError } from "../errors.js";
 import { defineStage, type Stage, type StageEnv } from "./stage.js";
 import { bool, field, list, num, obj, refine, str, type Infer, type Schema } from "../pipeline/schema.js";
+import { CompiledTemplate, templateExample, templateSchema, unknownSpecials, type ChatTemplate } from "../chat/template.js";
+import type { DocRecord } from "../types.js";
 import { ENCODINGS, loadEncoding, loadTokenizerFile, MAX_TRAIN_VOCAB, TokenBuffer, trainingStage, type Encoder } from "../tokenizer/index.js";
 
 const DEFAULT_EOS = "<|endoftext|>";
@@ -21,6 +23,9 @@ const base = obj({
   eos_token: field(str({ nonEmpty: true })),
   eos: field(bool(), { default: true }),
   bos: field(bool(), { default: false }),
+  // How a conversation record (a source with `turns`) becomes ids and targets; no default, so a
+  // pipeline without conversations keeps its resolved form and hash.
+  template: field(templateSchema),
 });
 
 /** `encoding` (default gpt2), `tokenizer` and `train` are alternatives: the raw keys are checked, since `encoding` gets a default. */
@@ -45,13 +50,16 @@ export const tokenizeOptions = refine(exclusive(base), (o, path, issues) => {
     const floor = 256 + new Set(r.train.special_tokens).size + 1;
     if (r.train.vocab_size < floor) issues.push({ path: [...path, "train", "vocab_size"], message: `expected at least ${floor} (256 bytes, the special tokens and one merge)` });
   }
+  // With train the special tokens are known from the options: the template is checked here, at its place in the file.
+  if (r.template !== undefined && r.train !== undefined) issues.push(...unknownSpecials(r.template, r.train.special_tokens, [...path, "template"]));
 });
 
 /** Resolved options; `tokenizer`, `train` and `eos_token` are absent unless given. */
-export type TokenizeOptions = Omit<Infer<typeof base>, "tokenizer" | "train" | "eos_token"> & {
+export type TokenizeOptions = Omit<Infer<typeof base>, "tokenizer" | "train" | "eos_token" | "template"> & {
   tokenizer?: string;
   train?: TrainTokenizerOptions;
   eos_token?: string;
+  template?: ChatTemplate;
 };
 
 /**
@@ -86,6 +94,23 @@ export function encoderFor(o: TokenizeOptions, baseDir: string): Encoder {
 }
 
 /**
+ * The ids of a record, and for a conversation its layout (src/chat/layout.ts): a record with turns
+ * is rendered by the template, any other as tokenizeText.
+ */
+export function tokenizeRecord(enc: Encoder, r: Pick<DocRecord, "text" | "turns">, o: TokenizeOptions, template: CompiledTemplate | undefined, buf: TokenBuffer): { tokens: Uint32Array; layout?: Uint32Array } {
+  if (!r.turns) return { tokens: tokenizeText(enc, r.text, o, buf) };
+  if (!template) throw new SiftpackError("SP_PIPELINE_KEY", "a conversation record reached a tokenize stage without a template");
+  return template.encode(enc, r, o.bos, o.eos, buf);
+}
+
+/** The template's special-token names the encoder does not know, as a pipeline error. */
+export function checkTemplate(o: TokenizeOptions, enc: Encoder): void {
+  if (o.template === undefined) return;
+  const issues = unknownSpecials(o.template, Object.keys(enc.specialTokens), ["template"]);
+  if (issues.length > 0) throw new SiftpackError("SP_PIPELINE_KEY", `tokenize: ${issues.map((i) => `${i.path.join(".")}: ${i.message}`).join("; ")}`);
+}
+
+/**
  * For `siftpack plan` (and anyone checking a pipeline before a build): loads, and so checks, the
  * tokenizer file of each tokenize entry. Throws SP_PIPELINE_KEY naming the file and the entry.
  */
@@ -116,6 +141,7 @@ export function tokenizeBounds(o: TokenizeOptions, baseDir: string): { eosId: nu
 /** The stage and, once known, its encoder (with `train`: after the stage has read all records). */
 export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stage; encoder(): Encoder } {
   const buf = new TokenBuffer(1 << 16);
+  const template = o.template ? new CompiledTemplate(o.template) : undefined;
   if (o.train !== undefined) {
     let trained: Encoder | undefined;
     const stage = trainingStage({
@@ -123,7 +149,7 @@ export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stag
       minFrequency: o.train.min_frequency,
       specialTokens: o.train.special_tokens,
       eosToken: o.eos_token ?? DEFAULT_EOS,
-      tokenize: (enc, text) => tokenizeText(enc, text, o, buf),
+      tokenize: (enc, r) => tokenizeRecord(enc, r, o, template, buf),
       markers: (o.bos ? 1 : 0) + (o.eos ? 1 : 0),
       onTrained: (enc) => (trained = enc),
     });
@@ -136,9 +162,12 @@ export function createTokenize(o: TokenizeOptions, env: StageEnv): { stage: Stag
     };
   }
   const enc = encoderFor(o, env.baseDir);
+  checkTemplate(o, enc);
   const stage: Stage = async function* tokenize(input, ctx) {
     for await (const r of input) {
-      r.tokens = tokenizeText(enc, r.text, o, buf);
+      const { tokens, layout } = tokenizeRecord(enc, r, o, template, buf);
+      r.tokens = tokens;
+      if (layout) r.chat = layout;
       if (r.tokens.length === 0) ctx.drop(r, "no-tokens");
       else yield r;
     }
@@ -156,6 +185,8 @@ export default defineStage({
   identity: (o, baseDir) => (o.train !== undefined ? "trained" : encoderFor(o, baseDir).name),
   reads: async (o) => (o.tokenizer !== undefined ? [o.tokenizer] : []),
   options: tokenizeOptions as Schema<TokenizeOptions>,
+  // A conversation as the template renders it, for comparing with a model's documented format.
+  explain: (o) => (o.template ? { template_example: templateExample(o.template) } : {}),
   create(o, env) {
     return createTokenize(o, env).stage;
   },

@@ -23,8 +23,8 @@ const SPILL_FILE = "tokenize-train.spill.jsonl";
 
 export interface TrainStageOptions extends TrainOptions {
   eosToken: string;
-  /** Ids of one record's text with the stage's BOS/EOS settings. */
-  tokenize(enc: Encoder, text: string): Uint32Array;
+  /** Ids of one record with the stage's BOS/EOS settings, and a conversation's layout (src/chat/layout.ts). */
+  tokenize(enc: Encoder, r: DocRecord): { tokens: Uint32Array; layout?: Uint32Array };
   /** How many BOS/EOS ids `tokenize` adds to each record. */
   markers: number;
   /** Called once the tokenizer is trained (before the first record is emitted). */
@@ -67,14 +67,18 @@ export function trainingStage(o: TrainStageOptions) {
       const lines = createInterface({ input: createReadStream(spill, "utf8"), crlfDelay: Infinity });
       for await (const line of lines) {
         if (line.length === 0) continue;
+        // A conversation's turns are plain JSON and come back with it.
         const r = JSON.parse(line) as DocRecord;
-        r.tokens = o.tokenize(enc, r.text);
+        const { tokens, layout } = o.tokenize(enc, r);
+        r.tokens = tokens;
+        if (layout) r.chat = layout;
         if (r.tokens.length === 0) {
           ctx.drop(r, "no-tokens");
           continue;
         }
-        // Compression on the held-out splits: bytes of UTF-8 text per token, BOS/EOS excluded.
-        if ((r.split ?? "train") !== "train") {
+        // Compression on the held-out splits: bytes of UTF-8 text per token, BOS/EOS excluded
+        // (conversations left out: their ids hold the template's markers, which are not in the text).
+        if ((r.split ?? "train") !== "train" && !r.turns) {
           ctx.count("tokenizer:heldout_bytes", Buffer.byteLength(r.text, "utf8"));
           ctx.count("tokenizer:heldout_tokens", r.tokens.length - o.markers);
         }

@@ -77,7 +77,7 @@ output:
     expect(p.details).toMatchInlineSnapshot(`
       [
         "p.yaml:2:7: seed: expected an integer from 0 to 4294967295, got number -4",
-        "p.yaml:5:5: sources[0].file: unknown key "file" (did you mean "files"?); allowed: name, files, format, text, id, meta, weight, max_line_mb, accept_truncated",
+        "p.yaml:5:5: sources[0].file: unknown key "file" (did you mean "files"?); allowed: name, files, format, text, id, meta, weight, max_line_mb, accept_truncated, turns",
         "p.yaml:4:5: sources[0].files: missing required key "files" (a string)",
         "p.yaml:6:13: sources[0].format: expected one of jsonl | json | csv | tsv | text | parquet, got "jsonlines"",
         "p.yaml:7:11: sources[0].text: expected a string, got number 5",
