@@ -34,7 +34,8 @@ export const uniqueIdsForm: KeyedForm<unknown> = {
         const { i, k } = JSON.parse(line) as { i: number; k: string };
         const at = first.get(k);
         if (at === undefined) first.set(k, u);
-        else if (at !== u) out.decide(u, i, 1);
+        // The decision names the unit holding the first: the pack phase words the quarantine by whether it is the same file.
+        else if (at !== u) out.decide(u, i, at);
       }
     }
   },

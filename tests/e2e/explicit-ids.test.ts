@@ -38,8 +38,8 @@ describe("explicit ids across units", () => {
       expect(lines).toHaveLength(207);
       const quarantined = lines.filter((l) => l.fate === "quarantined");
       expect(quarantined.map((l) => [l.file, l.line, l.error])).toEqual([
-        // Within one unit the reader itself says so; across units (files, or parts of one) the ids phase does.
-        ["d/a.jsonl", 201, name === "whole files" ? 'duplicate id "W-20"' : 'duplicate id "W-20" (also in an earlier file of the source)'],
+        // Within one unit the reader itself says so; across units the ids phase does, in the same words when the first is in an earlier part of the same file.
+        ["d/a.jsonl", 201, 'duplicate id "W-20"'],
         ["d/b.jsonl", 6, 'duplicate id "W-3" (also in an earlier file of the source)'],
       ]);
     });
