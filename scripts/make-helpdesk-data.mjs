@@ -5,21 +5,11 @@
 import { mkdirSync, writeFileSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
+import { mulberry32 } from "./seeded-random.mjs";
 
 const out = join(dirname(fileURLToPath(import.meta.url)), "..", "sample-data", "helpdesk", "helpdesk.jsonl");
 
-// mulberry32: a small seeded PRNG, enough for picking words.
-function rng(seed) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-const rand = rng(2026);
+const rand = mulberry32(2026);
 const pick = (xs) => xs[Math.floor(rand() * xs.length)];
 const int = (lo, hi) => lo + Math.floor(rand() * (hi - lo + 1));
 

@@ -19,27 +19,15 @@ import { createHash } from "node:crypto";
 import fs from "node:fs";
 import path from "node:path";
 import { fileURLToPath } from "node:url";
+import { mulberry32 } from "./seeded-random.mjs";
 
 const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), "..");
 const OUT = path.resolve(process.argv[2] ?? path.join(ROOT, "sample-data"));
 const MASTER_SEED = 20250117;
 
 // ---------------------------------------------------------------------------------------------
-// Seeded randomness
+// Seeded randomness (mulberry32: scripts/seeded-random.mjs)
 // ---------------------------------------------------------------------------------------------
-
-// mulberry32: a 32-bit state is plenty for a few thousand draws, and the function is short enough
-// to keep inline, so the output never depends on a library's version.
-function mulberry32(seed) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 // FNV-1a, used only to turn a stream name into a seed.
 function fnv1a(s) {

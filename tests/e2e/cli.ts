@@ -3,6 +3,7 @@ import { spawnSync } from "node:child_process";
 import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, statSync, writeFileSync } from "node:fs";
 import { parse as parseYaml, stringify as stringifyYaml } from "yaml";
 import { tmpdir } from "node:os";
+import { gunzipSync } from "node:zlib";
 import { join, resolve } from "node:path";
 
 export const ROOT = resolve(import.meta.dirname, "../..");
@@ -114,4 +115,13 @@ export function blocksOf(dir: string, seen = new Set<number>()): number {
     }
   }
   return n;
+}
+
+/** The lines of a build's ledger (ledger.jsonl.gz in `dir`), parsed. */
+export function ledgerLines(dir: string): any[] {
+  return gunzipSync(readFileSync(join(dir, "ledger.jsonl.gz")))
+    .toString("utf8")
+    .split("\n")
+    .filter(Boolean)
+    .map((l) => JSON.parse(l));
 }

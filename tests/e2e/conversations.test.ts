@@ -3,9 +3,8 @@
 // help-desk's answers with their closing markers.
 import { beforeAll, describe, expect, it } from "vitest";
 import { readFileSync, writeFileSync } from "node:fs";
-import { gunzipSync } from "node:zlib";
 import { join } from "node:path";
-import { python, ROOT, siftpack, tempDir } from "./cli.js";
+import { ledgerLines as ledger, python, ROOT, siftpack, tempDir } from "./cli.js";
 import { loadEncoding } from "../../src/tokenizer/index.js";
 import type { Manifest } from "../../src/output/manifest.js";
 
@@ -27,14 +26,6 @@ function variant(name: string, edit: (text: string) => string): string {
   const file = join(dir, "helpdesk.yaml");
   writeFileSync(file, edit(text));
   return file;
-}
-
-function ledger(dir: string): any[] {
-  return gunzipSync(readFileSync(join(dir, "ledger.jsonl.gz")))
-    .toString("utf8")
-    .split("\n")
-    .filter(Boolean)
-    .map((l) => JSON.parse(l));
 }
 
 beforeAll(() => {

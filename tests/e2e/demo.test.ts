@@ -3,7 +3,7 @@ import { beforeAll, describe, expect, it } from "vitest";
 import { readFileSync, writeFileSync, cpSync } from "node:fs";
 import { gunzipSync } from "node:zlib";
 import { join } from "node:path";
-import { python, siftpack, tempDir } from "./cli.js";
+import { ledgerLines as ledger, python, siftpack, tempDir } from "./cli.js";
 import type { Manifest } from "../../src/output/manifest.js";
 
 let out: string;
@@ -18,14 +18,6 @@ beforeAll(() => {
   runStdout = r.stdout;
   manifest = JSON.parse(readFileSync(join(out, "manifest.json"), "utf8"));
 });
-
-function ledger(dir: string): any[] {
-  return gunzipSync(readFileSync(join(dir, "ledger.jsonl.gz")))
-    .toString("utf8")
-    .split("\n")
-    .filter(Boolean)
-    .map((l) => JSON.parse(l));
-}
 
 describe("demo build", () => {
   it("prints a summary with every split", () => {
