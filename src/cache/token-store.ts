@@ -1,12 +1,15 @@
 // Cached token ids of one input file's records: a flat binary file of entries
-// [u32 line][u32 count][u64 xxh64 of the text][count × u32 id], in the order the records reached
-// the tokenizer. An entry is used only if the text still hashes the same, so stages that change
+// [u32 line][u32 count | NARROW][u64 xxh64 of the text][count × u16 or u32 id], in the order the
+// records reached the tokenizer. An entry whose ids all fit 16 bits (every id of a vocabulary below
+// 65,536, as GPT-2's) keeps them in 2 bytes each and sets NARROW in its count: half the room. An entry is used only if the text still hashes the same, so stages that change
 // text (or a changed input file) invalidate exactly the records whose text changed.
 import { closeSync, openSync, readSync, write } from "node:fs";
 import { promisify } from "node:util";
 
 /** Bytes before an entry's ids: line, count, text hash. */
 const HEAD = 16;
+/** Set in an entry's count when its ids are 16-bit. */
+const NARROW = 0x80000000;
 
 /** Reads entries in order; `find(line)` skips forward to a line and returns its ids if present. */
 export class TokenStoreReader {
@@ -56,16 +59,23 @@ export class TokenStoreReader {
     for (;;) {
       const at = this.peekLine();
       if (at === undefined || at > line) return undefined;
-      const count = this.buf.readUInt32LE(this.start + 4);
-      if (!this.fill(HEAD + count * 4)) return undefined;
+      const word = this.buf.readUInt32LE(this.start + 4);
+      const count = (word & ~NARROW) >>> 0;
+      const width = word & NARROW ? 2 : 4;
+      if (!this.fill(HEAD + count * width)) return undefined;
       const hash = this.buf.readBigUInt64LE(this.start + 8);
       const from = this.start + HEAD;
-      this.start += HEAD + count * 4;
+      this.start += HEAD + count * width;
       if (at === line) {
         if (hash !== textHash) return undefined;
-        const out = new Uint32Array(count);
-        new Uint8Array(out.buffer).set(this.buf.subarray(from, from + count * 4));
-        return out;
+        if (width === 4) {
+          const out = new Uint32Array(count);
+          new Uint8Array(out.buffer).set(this.buf.subarray(from, from + count * 4));
+          return out;
+        }
+        const narrow = new Uint16Array(count);
+        new Uint8Array(narrow.buffer).set(this.buf.subarray(from, from + count * 2));
+        return Uint32Array.from(narrow);
       }
     }
   }
@@ -98,13 +108,18 @@ export class TokenStoreWriter {
 
   add(line: number, textHash: bigint, ids: Uint32Array): void {
     if (this.failure) throw this.failure;
-    const need = HEAD + ids.length * 4;
+    let max = 0;
+    for (let i = 0; i < ids.length; i++) if (ids[i] > max) max = ids[i];
+    const width = max < 0x10000 ? 2 : 4;
+    const need = HEAD + ids.length * width;
     if (this.used + need > this.chunk.length) this.flush();
     if (need > this.chunk.length) this.chunk = Buffer.allocUnsafe(need);
     this.chunk.writeUInt32LE(line, this.used);
-    this.chunk.writeUInt32LE(ids.length, this.used + 4);
+    this.chunk.writeUInt32LE((ids.length | (width === 2 ? NARROW : 0)) >>> 0, this.used + 4);
     this.chunk.writeBigUInt64LE(textHash, this.used + 8);
-    new Uint8Array(this.chunk.buffer, this.chunk.byteOffset + this.used + HEAD, ids.length * 4).set(new Uint8Array(ids.buffer, ids.byteOffset, ids.byteLength));
+    const body = new Uint8Array(this.chunk.buffer, this.chunk.byteOffset + this.used + HEAD, ids.length * width);
+    if (width === 4) body.set(new Uint8Array(ids.buffer, ids.byteOffset, ids.byteLength));
+    else body.set(new Uint8Array(Uint16Array.from(ids).buffer));
     this.used += need;
   }
 

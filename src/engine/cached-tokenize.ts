@@ -35,7 +35,7 @@ const pending = (): Pending => ({ records: [], cached: [], misses: new FrameWrit
  */
 export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache | undefined, encoderName: string, part: () => string | undefined = () => undefined): Stage {
   // The encoder's name carries a hash of a tokenizer file's content, so editing the file invalidates the entries.
-  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", siftpack: toolVersion(), source: r.source, file: r.origin.file, part: part() ?? null, options: o, encoder: encoderName });
+  const keyOf = (r: DocRecord) => BuildCache.key({ unit: "tokens", store: 2, siftpack: toolVersion(), source: r.source, file: r.origin.file, part: part() ?? null, options: o, encoder: encoderName });
   return async function* tokenize(input, ctx) {
     // Lookup side: the cache entry of the file now being batched.
     let reading: { id: string; reader?: TokenStoreReader } | undefined;

@@ -1,6 +1,6 @@
 // The token-id cache file: entries written (in background chunks) come back by line, and a changed text misses.
 import { describe, expect, it } from "vitest";
-import { mkdtempSync } from "node:fs";
+import { mkdtempSync, statSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { TokenStoreReader, TokenStoreWriter } from "../../src/cache/token-store.js";
@@ -24,5 +24,24 @@ describe("token store", () => {
     const again = new TokenStoreReader(path);
     expect(again.find(9000, 1n)?.length).toBe(600_000);
     again.close();
+  });
+
+  it("keeps ids below 65,536 in 2 bytes and an entry with a larger id in 4, each read back as written", async () => {
+    const path = join(mkdtempSync(join(tmpdir(), "siftpack-tokens-")), "t.bin");
+    const w = new TokenStoreWriter(path);
+    const narrow = Uint32Array.from({ length: 1000 }, (_, j) => (j * 977) % 65536);
+    narrow[999] = 65535;
+    const wide = Uint32Array.from({ length: 1000 }, (_, j) => (j * 977) % 65536);
+    wide[500] = 65536;
+    w.add(1, 11n, narrow);
+    w.add(2, 22n, wide);
+    w.add(3, 33n, new Uint32Array(0));
+    await w.close();
+    expect(statSync(path).size).toBe(16 + 2 * 1000 + 16 + 4 * 1000 + 16);
+    const r = new TokenStoreReader(path);
+    expect(r.find(1, 11n)).toEqual(narrow);
+    expect(r.find(2, 22n)).toEqual(wide);
+    expect(r.find(3, 33n)).toEqual(new Uint32Array(0));
+    r.close();
   });
 });
