@@ -252,7 +252,11 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       }
     } else if (does.kind === "analysis") {
       for (const a of analysisFiles()) await partitions(env, share, analysisForm(a.steps, a.ctx), undefined, a.dirs, count);
-    } else manifest = await assemblePhase(env, { packPhase: packPhaseOf(plan), groupCount: groups.length, analyses: analysisFiles() });
+    } else {
+      manifest = await assemblePhase(env, { packPhase: packPhaseOf(plan), groupCount: groups.length, analyses: analysisFiles() });
+      // A cluster's build, published: the cache keeps what its tasks used, as `run` prunes it (a local run prunes itself).
+      if (!opts.buildCache) await pruneAfterTasks(cache, [...done.values()].flat(), log);
+    }
   } catch (caught) {
     // A system error while writing the work directory (a full disk, a folder made read-only) is a
     // failure of this build, told in one line, not an internal error.
@@ -279,7 +283,9 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     // The folder's size is the run's to say, once it has pruned.
     size: { entries: 0, bytes: 0, removed: 0 },
   };
-  const d: TaskDone = { plan: key, phase: phase.name, index, tasks: phase.tasks, counts, units: unitFacts, files, cache: report, seconds: (Date.now() - started) / 1000 };
+  // A task in a process of its own (a cluster's) lists the cache entries it used, for the assemble task's pruning.
+  const used = opts.buildCache ? undefined : cache.takeUsed();
+  const d: TaskDone = { plan: key, phase: phase.name, index, tasks: phase.tasks, counts, units: unitFacts, files, cache: report, seconds: (Date.now() - started) / 1000, ...(used ? { used } : {}) };
   await markDone(work, d);
   meter.taskDone();
   // Memory as the task ends (this process, its worker threads included): where a build's peak comes from.
@@ -377,6 +383,20 @@ async function collectOnly(env: TaskEnv, u: number, collector: Awaited<ReturnTyp
     throw err;
   }
   return records;
+}
+
+/**
+ * After a build run as separate task processes: removes the cache entries no task of it used. Not
+ * when a marker lacks the list (written by a task run some other way): then what it used is unknown.
+ */
+async function pruneAfterTasks(cache: BuildCache, done: TaskDone[], log: Logger): Promise<void> {
+  if (done.some((d) => d.used === undefined)) return;
+  for (const d of done) cache.use(d.used!);
+  const removed = await cache.prune().catch((err) => {
+    log.warn({ cache: cache.dir }, `cannot prune the cache ${cache.dir}: ${describeSystemError(err)}`);
+    return 0;
+  });
+  if (removed > 0) log.info({ cache: cache.dir, removed }, `cache: ${removed} entries no task of this build used removed`);
 }
 
 /** Bytes of the collected files of partition `part` (every keyed file name). */

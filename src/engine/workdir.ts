@@ -33,6 +33,8 @@ export interface TaskDone {
   files: string[];
   cache?: CacheReport;
   seconds: number;
+  /** The build-cache entries the task used, when it ran in a process of its own (`siftpack task`): the assemble task prunes to them. */
+  used?: string[];
 }
 
 export { AtomicStream, linkAtomic, linkOrCopy, writeAtomic } from "../lib/work-files.js";

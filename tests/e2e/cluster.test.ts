@@ -54,10 +54,18 @@ describe("cluster build as separate task processes", () => {
       expect(plan.phases[0].name).toBe("read");
       expect(plan.phases.at(-1)!.name).toBe("assemble");
       expect(plan.phases.find((p) => p.name === "buckets")!.tasks).toBe(tasks);
+      // An entry no task of this build uses: the assemble task prunes the cache as `run` does.
+      const cache = join(dir, `build/.t${tasks}.cache`);
+      mkdirSync(cache, { recursive: true });
+      writeFileSync(join(cache, "read-00000000deadbeef.bin"), "left by another build");
       runAll(file, dir, plan, { indexVar });
       const built = outputFiles(join(dir, `build/t${tasks}`));
       expect(Object.keys(built).sort()).toEqual(Object.keys(local).sort());
       for (const f of Object.keys(local)) expect(built[f], f).toBe(local[f]);
+      const kept = readdirSync(cache);
+      expect(kept).not.toContain("read-00000000deadbeef.bin");
+      expect(kept.filter((n) => n.startsWith("read-")).length).toBeGreaterThan(0);
+      expect(kept.filter((n) => /^step-[0-9a-f]{16}\.json$/.test(n)).length).toBeGreaterThan(0);
     }, 300_000);
   }
 
