@@ -4,6 +4,7 @@
 // decision files about the unit and of whatever the stage's applier read, so a change anywhere
 // else in the corpus leaves the key as it was.
 import { readdir, stat } from "node:fs/promises";
+import { collectedPaths } from "../stages/keyed.js";
 import { join, relative } from "node:path";
 import { BuildCache } from "../cache/build-cache.js";
 import { toolVersion } from "../output/manifest.js";
@@ -15,7 +16,6 @@ import { IDS_CHECK } from "./plan.js";
 import { STEP_FORMAT } from "./step-memo.js";
 import { mixtureOf, tallyFile, talliesHere } from "./mixture-tally.js";
 import { applierOf, dropsFile, keyedDirs, sourceOf, summaryFile, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
-import { unitName } from "./workdir.js";
 
 /** The fingerprint of unit u's file written by phase `phase`, when that phase left one. */
 export function fingerprintOf(env: TaskEnv, phase: string, u: number): string | undefined {
@@ -41,10 +41,16 @@ async function filesDigest(env: TaskEnv, paths: string[]): Promise<[string, stri
   return out;
 }
 
+/** Per task and keyed stage: the digest of what its applier read (the same for every unit). */
+const applierPrints = new WeakMap<TaskEnv, Map<number, Promise<unknown>>>();
+
 /** What keyed stage `s` decides about unit u as the unit's reader applies it: the decision files, and what the applier read. */
 async function decisionsPrint(env: TaskEnv, s: number, u: number, count: StageContext["count"]): Promise<unknown> {
-  const applier = await applierOf(env, s, count);
-  return { applier: await filesDigest(env, applier.read), unit: await filesDigest(env, keyedDirs(env, s).decisionPaths(u)) };
+  let prints = applierPrints.get(env);
+  if (!prints) applierPrints.set(env, (prints = new Map()));
+  let applier = prints.get(s);
+  if (!applier) prints.set(s, (applier = applierOf(env, s, count).then((a) => filesDigest(env, a.read))));
+  return { applier: await applier, unit: await filesDigest(env, keyedDirs(env, s).decisionPaths(u)) };
 }
 
 /** The key of unit u's step in pass phase k (undefined when the unit file it reads has no fingerprint). */
@@ -119,10 +125,7 @@ async function existing(paths: string[]): Promise<string[]> {
 
 /** The files a keyed stage's collector wrote for unit (or group) `u` under `collectDir`. */
 export async function collectedFiles(collectDir: string, u: number): Promise<string[]> {
-  const root = join(collectDir, "keyed");
-  const paths: string[] = [];
-  for (const name of await readdir(root).catch(() => [] as string[])) for (const sub of await readdir(join(root, name)).catch(() => [] as string[])) paths.push(join(root, name, sub, unitName(u)));
-  return existing(paths.sort());
+  return existing(await collectedPaths(collectDir, u));
 }
 
 /** The files a pass left for unit u: records, drops, summaries, the mixture's tally, collected material. */

@@ -167,13 +167,8 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     if (key !== undefined) await memo.save<Kept>(key, await files(), { result, counts: noted, ...(warnings.length ? { warnings } : {}) }, used);
     return result;
   };
-  /** Bytes of the files phase k reads for these units (the progress of a reused step). */
-  const readBytes = async (us: number[]) => {
-    const from = sourceOf(plan, k).from.name;
-    let n = 0;
-    for (const u of us) n += (await stat(unitsFile(work, from, u)).catch(() => ({ size: 0 }))).size;
-    meter.bytes(n);
-  };
+  /** The progress of a reused step: the bytes phase k would have read for these units. */
+  const readBytes = async (us: number[]) => meter.bytes(await unitFilesBytes(plan, k, us));
   let manifest: Manifest | undefined;
   try {
     log.note({ phase: phase.name, task: index, tasks: phase.tasks }, "task started");
@@ -458,10 +453,15 @@ async function phaseBytes(plan: PhasePlan, units: Unit[], groups: PackGroup[], k
     return n;
   }
   if (does.kind === "resolve") return dirBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.partition, "shared"));
-  const from = sourceOf(plan, k).from;
   const list = does.kind === "pass" ? range(share.from, share.to) : does.kind === "pack" ? groups.slice(share.from, share.to).flatMap((g) => g.units) : does.kind === "assemble" ? [] : range(0, units.length);
+  return unitFilesBytes(plan, k, list);
+}
+
+/** Bytes of the unit files phase k reads (those of the phase whose records it takes) for units `us`. */
+async function unitFilesBytes(plan: PhasePlan, k: number, us: number[]): Promise<number> {
+  const from = sourceOf(plan, k).from.name;
   let n = 0;
-  for (const u of list) n += (await stat(unitsFile(plan.workDir, from.name, u)).catch(() => ({ size: 0 }))).size;
+  for (const u of us) n += (await stat(unitsFile(plan.workDir, from, u)).catch(() => ({ size: 0 }))).size;
   return n;
 }
 

@@ -222,11 +222,17 @@ export class OwnFileReader {
   }
 }
 
+/** Where collectors under `collectDir` may have written for unit u: one path per file name and partition (or own) seen there. */
+export async function collectedPaths(collectDir: string, u: number): Promise<string[]> {
+  const root = join(collectDir, "keyed");
+  const paths: string[] = [];
+  for (const name of await readdir(root).catch(() => [] as string[])) for (const sub of await readdir(join(root, name)).catch(() => [] as string[])) paths.push(join(root, name, sub, unitName(u)));
+  return paths.sort();
+}
+
 /** Collects one unit: removes what an earlier attempt left for it, then files appear as the collector finishes. */
 export async function collectUnit(dirs: KeyedDirs, collectors: Collectors, u: number): Promise<{ add(r: DocRecord): void | Promise<void>; finish(): Promise<void>; abort(): Promise<void> }> {
-  const root = join(dirs.collect, "keyed");
-  for (const name of await readdir(root).catch(() => [] as string[]))
-    for (const sub of await readdir(join(root, name)).catch(() => [] as string[])) await rm(join(root, name, sub, unitName(u)), { force: true });
+  for (const path of await collectedPaths(dirs.collect, u)) await rm(path, { force: true });
   const open = new Map<string, AtomicStream>();
   const writer = (path: string): Writer => ({
     async write(data) {
