@@ -141,7 +141,14 @@ export function planPhases(p: LoadedPipeline, tasks = p.config.cluster.tasks): P
   return { pipeline: resolve(p.file), workDir: workDirOf(p), outDir: p.outDir, phases, tasks, keyed, analyses };
 }
 
-/** The share of `count` items (units or key partitions) task `index` of `tasks` handles: a contiguous range. */
-export function shareOf(index: number, tasks: number, count: number): { from: number; to: number } {
-  return { from: Math.floor((index * count) / tasks), to: Math.floor(((index + 1) * count) / tasks) };
+/**
+ * The items (units, packing groups or key partitions) of `count` that task `index` of `tasks`
+ * handles, dealt round the tasks: index, index + tasks, … Neighbouring items fall to different tasks,
+ * so the few that a rebuild after an append must compute again (the new file's, the last group) run
+ * side by side instead of one after another in the same task.
+ */
+export function shareOf(index: number, tasks: number, count: number): number[] {
+  const out: number[] = [];
+  for (let i = index; i < count; i += tasks) out.push(i);
+  return out;
 }

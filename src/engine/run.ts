@@ -107,7 +107,7 @@ async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Pr
         manifest = r.manifest ?? manifest;
         tally.taskDone();
       };
-      const busy = layout.shares.flatMap((s, i) => (s.to > s.from ? [i] : []));
+      const busy = layout.shares.flatMap((s, i) => (s.length > 0 ? [i] : []));
       if (!pool || busy.length < 2) {
         // One task with work (or none): it has every worker thread for its per-record stages.
         for (let i = 0; i < phase.tasks; i++) await here(i, threads);

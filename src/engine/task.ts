@@ -179,7 +179,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const check = sourcesToCheck(units);
       const ids = plan.keyed.has(IDS_CHECK) && check.size > 0 ? { dirs: keyedDirs(env, IDS_CHECK), collectors: await uniqueIdsForm.collectors({}, { ...stepContext(env, count), threads }) } : undefined;
       try {
-        for (let u = share.from; u < share.to; u++) {
+        for (const u of share) {
           const r = await readUnit(env, u, does.entries, pool, cache);
           for (const [name, n] of Object.entries(r.counts)) count(name, n);
           unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines, fp: r.fp };
@@ -202,7 +202,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const collectors = steps ? await steps.form.collectors(steps.entry.options, { ...stepContext(env, count), threads }) : undefined;
       const stages = await PassStages.create(does.entries, p.baseDir, p.config.seed, threads, cache);
       try {
-        for (let u = share.from; u < share.to; u++) {
+        for (const u of share) {
           const key = await passKey(env, u, count);
           const records = await step(
             key,
@@ -232,7 +232,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const analyses: PackGroupOptions["analyses"] = [];
       for (const a of analysisFiles()) analyses.push({ ...a, collectors: await a.steps.collectors(a.ctx, { ...stepContext(env, count), threads }) });
       try {
-        for (let g = share.from; g < share.to; g++) {
+        for (const g of share) {
           const dir = groupDir(work, phase.name, g);
           await rm(dir, { recursive: true, force: true });
           await step(
@@ -303,7 +303,7 @@ function itemsOf(plan: PhasePlan, k: number, units: Unit[], groups: PackGroup[])
 
 /** A phase's tasks before they run: each one's share of the phase's items and the bytes it will read. */
 export interface PhaseLayout {
-  shares: { from: number; to: number }[];
+  shares: number[][];
   bytes: number[];
 }
 
@@ -323,8 +323,8 @@ const packPhaseOf = (plan: PhasePlan) => plan.phases.find((ph) => ph.does.kind =
 const analysisPhaseOf = (plan: PhasePlan) => plan.phases.find((ph) => ph.does.kind === "analysis")?.name ?? "analysis";
 
 /** The task's share of a keyed form's partition steps (a keyed stage's, or an analysis'). */
-async function partitions<O>(env: TaskEnv, share: { from: number; to: number }, form: KeyedForm<O>, options: O, dirs: KeyedDirs, count: (name: string, n?: number) => void): Promise<void> {
-  for (let part = share.from; part < share.to; part++) {
+async function partitions<O>(env: TaskEnv, share: number[], form: KeyedForm<O>, options: O, dirs: KeyedDirs, count: (name: string, n?: number) => void): Promise<void> {
+  for (const part of share) {
     crashPoint("partition");
     await partitionStep(form, options, dirs, part, stepContext(env, count));
     env.meter.bytes(await partitionBytes(dirs.collect, part));
@@ -438,22 +438,22 @@ async function rereadUnit(env: TaskEnv, u: number, tally: boolean, ids: { c: Awa
 }
 
 /** What the task's share of phase k reads, in bytes: input units, the unit files before it, or collected material. */
-async function phaseBytes(plan: PhasePlan, units: Unit[], groups: PackGroup[], k: number, share: { from: number; to: number }): Promise<number> {
+async function phaseBytes(plan: PhasePlan, units: Unit[], groups: PackGroup[], k: number, share: number[]): Promise<number> {
   const phase = plan.phases[k];
   const does = phase.does;
   if (does.kind === "analysis") {
     let n = 0;
-    for (const a of plan.analyses) for (let part = share.from; part < share.to; part++) n += await partitionBytes(join(plan.workDir, packPhaseOf(plan), `analysis-${a.key}`), part);
+    for (const a of plan.analyses) for (const part of share) n += await partitionBytes(join(plan.workDir, packPhaseOf(plan), `analysis-${a.key}`), part);
     return n;
   }
-  if (does.kind === "read") return units.slice(share.from, share.to).reduce((a, u) => a + unitBytes(u), 0);
+  if (does.kind === "read") return share.reduce((a, u) => a + unitBytes(units[u]), 0);
   if (does.kind === "partition") {
     let n = 0;
-    for (let part = share.from; part < share.to; part++) n += await partitionBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.collect), part);
+    for (const part of share) n += await partitionBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.collect), part);
     return n;
   }
   if (does.kind === "resolve") return dirBytes(join(plan.workDir, plan.keyed.get(does.keyed)!.partition, "shared"));
-  const list = does.kind === "pass" ? range(share.from, share.to) : does.kind === "pack" ? groups.slice(share.from, share.to).flatMap((g) => g.units) : does.kind === "assemble" ? [] : range(0, units.length);
+  const list = does.kind === "pass" ? share : does.kind === "pack" ? share.flatMap((g) => groups[g].units) : does.kind === "assemble" ? [] : range(0, units.length);
   return unitFilesBytes(plan, k, list);
 }
 

@@ -85,7 +85,7 @@ export async function markFailed(work: string, phase: string, i: number, error: 
  * run at the same time, so only files of the task's own share (input files or partitions, the
  * number their names start with) are touched; `mine` undefined: the phase has one task.
  */
-export async function clearTemporaries(dir: string, mine?: { from: number; to: number }): Promise<void> {
+export async function clearTemporaries(dir: string, mine?: number[]): Promise<void> {
   const walk = async (d: string): Promise<void> => {
     for (const e of await readdir(d, { withFileTypes: true }).catch(() => [])) {
       const p = join(d, e.name);
@@ -96,7 +96,7 @@ export async function clearTemporaries(dir: string, mine?: { from: number; to: n
       }
       else if (/\.tmp-[0-9a-f]{8}$/.test(e.name)) {
         const n = Number(/^(\d+)\./.exec(e.name)?.[1] ?? NaN);
-        if (mine === undefined || (n >= mine.from && n < mine.to)) await rm(p, { force: true });
+        if (mine === undefined || mine.includes(n)) await rm(p, { force: true });
       }
     }
   };
