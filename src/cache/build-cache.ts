@@ -6,7 +6,8 @@ import { threadId } from "node:worker_threads";
 import { canonicalJson } from "../lib/canonical-json.js";
 import { hex64, xxh64String } from "../lib/hash.js";
 
-export type UnitKind = "read" | "tokens" | "step";
+/** read: a unit's records as read; tokens: token ids; step: a later step's files; hash: an input's hashes (input-hashes.ts). */
+export type UnitKind = "read" | "tokens" | "step" | "hash";
 
 export interface CacheReport {
   /** Per kind: units (input files) whose cache entry was found or not; for tokens also records. */

@@ -15,6 +15,7 @@ import { recordFailure } from "./record-failure.js";
 import { STAGES } from "../stages/index.js";
 import { crashPoint } from "../lib/crash-point.js";
 import { hashFile, hex64, loadHasher } from "../lib/hash.js";
+import { inputHashes } from "../cache/input-hashes.js";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { StageEntry } from "../pipeline/config.js";
 import { unitBytes, unitsFile, type TaskEnv } from "./unit-io.js";
@@ -44,8 +45,11 @@ export async function readUnit(env: TaskEnv, u: number, entries: StageEntry[], p
     throw new SiftpackError("SP_INPUT_MISSING", `source "${spec.name}": cannot read ${unit.path}: ${describeSystemError(err)}`, { cause: err });
   };
   // The whole file is hashed once, by its first unit; a later part is known by its own bytes.
-  const whole = !unit.range || unit.range.start === 0 ? await hashFile(abs).catch(fail) : undefined;
-  const part = unit.range ? await hashRange(abs, unit.range).catch(fail) : undefined;
+  // Both are kept in the cache under the file's identity, so an unchanged input is not read again to hash it.
+  const { whole, part } = await inputHashes(cache, abs, unit.range, async () => ({
+    whole: !unit.range || unit.range.start === 0 ? await hashFile(abs).catch(fail) : undefined,
+    part: unit.range ? await hashRange(abs, unit.range).catch(fail) : undefined,
+  }));
   const key = BuildCache.key({
     range: unit.range ?? null,
     part: part?.xxh64 ?? null,
