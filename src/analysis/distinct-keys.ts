@@ -22,6 +22,24 @@ export function countSortedDistinct(w: Uint32Array, n: number): number {
   return d;
 }
 
+/**
+ * Sorts the 64-bit keys of `w` (pairs of halves in this machine's layout, starting on an 8-byte
+ * boundary) in place and moves each distinct key once to the front; returns that sorted prefix.
+ */
+export function sortUnique(w: Uint32Array): Uint32Array {
+  const n = w.length / 2;
+  if (n === 0) return w;
+  new BigUint64Array(w.buffer, w.byteOffset, n).sort();
+  let d = 1;
+  for (let i = 1; i < n; i++)
+    if (w[2 * i] !== w[2 * d - 2] || w[2 * i + 1] !== w[2 * d - 1]) {
+      w[2 * d] = w[2 * i];
+      w[2 * d + 1] = w[2 * i + 1];
+      d++;
+    }
+  return w.subarray(0, 2 * d);
+}
+
 /** The spill file (of `files`) a key goes to, by its low half: equal keys meet in one file. */
 export function spillOf(lo: number, files: number): number {
   return Math.floor((lo * files) / 4294967296);

@@ -31,7 +31,8 @@
 //
 // Files of group g (own): meta.json (per split: documents, short documents, n-gram positions, unigram
 // tokens and ids), unigram.bin (Float64 counts per split), sig.bin (per document: bands band keys,
-// then k signature values, uint32). Per partition: ng-train (64-bit keys), ng-held (hi, lo, split
+// then k signature values, uint32). Per partition: ng-train (64-bit keys, in runs
+// sorted and without repeats, one per flush of the group's buffer), ng-held (hi, lo, split
 // code | TEXT_FLAG, number in split: 4 × uint32), bands-train (key, band, row: 3 × uint32),
 // bands-held (key, band, row, split code, number in split: 5 × uint32). Numbers are in this
 // machine's byte order: every task of a build runs on the same kind of machine.
@@ -48,7 +49,7 @@ import { UnigramCounts } from "../overlap/divergence.js";
 import { HashMap64 } from "../overlap/hash-map64.js";
 import { heldOutPairs, nearDupDescription, ngramCounts, pairFigures, splitOrder, wordsDescription, type NearDupSettings, type OverlapFigures } from "../overlap/figures.js";
 import type { WordForm } from "../overlap/words.js";
-import { DISTINCT_BUDGET, DistinctKeys, HI, LO, mergeFind, spillOf } from "./distinct-keys.js";
+import { DISTINCT_BUDGET, DistinctKeys, HI, LO, mergeFind, sortUnique, spillOf } from "./distinct-keys.js";
 import { hashPool, keyPartition, TextBatch, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
 import { nearDupOf, overlapApplies, vocabSizeOf } from "./overlap-settings.js";
 
@@ -57,12 +58,13 @@ const BATCH_DOCS = 1024;
 const BATCH_CHARS = 1 << 22;
 /**
  * Buffer sizes. Numbers buffered across the partition files (a file is written when it holds its share,
- * so memory does not grow with the number of partitions); words per read of a partition file
- * (8 MiB); held-out signature rows kept while joining buckets (a bucket's members are met again and
+ * so memory does not grow with the number of partitions); train's key halves likewise, in a larger
+ * buffer (32 MiB: a default packing group's keys fit it, so each of its partition files is one sorted
+ * run); words per read of a partition file (8 MiB); held-out signature rows kept while joining buckets (a bucket's members are met again and
  * again); train keys a partition step counts in memory before it spills (distinct-keys.ts). Tests
  * shrink them to exercise every flush, spill and chunk boundary on small inputs.
  */
-export const overlapLimits = { partFlush: 1 << 20, readWords: 1 << 21, rowCache: 4096, distinctBudget: DISTINCT_BUDGET };
+export const overlapLimits = { partFlush: 1 << 20, trainFlush: 1 << 23, readWords: 1 << 21, rowCache: 4096, distinctBudget: DISTINCT_BUDGET };
 /** Marks a held-out text fingerprint among its n-gram keys. */
 const TEXT_FLAG = 0x80000000;
 const TWO32 = 4294967296;
@@ -99,7 +101,7 @@ class GroupCollector implements UnitCollector {
   private chars = 0;
   private readonly pending: { items: { code: number; n: number }[]; result: Promise<HashedBatch> }[] = [];
   private rows = 0;
-  /** Train's keys by partition (64-bit keys, repeats kept: the partition step counts distinct ones). */
+  /** Train's keys by partition (64-bit keys, repeats kept until a flush sorts them and drops repeats). */
   private readonly train: Grow<Uint32Array>[];
   private readonly held: number[][];
   private readonly bandsTrain: number[][];
@@ -188,9 +190,11 @@ class GroupCollector implements UnitCollector {
   private async flushParts(p: number, all: boolean): Promise<void> {
     const share = Math.max(1, Math.floor(overlapLimits.partFlush / this.out.partitions));
     const t = this.train[p];
-    if (t.length > 0 && (all || t.length >= share)) {
-      // A copy: the stream holds what it is given until written, and the column is reused.
-      await this.out.part("ng-train", p).write(new Uint8Array(t.view().slice().buffer));
+    if (t.length > 0 && (all || t.length >= Math.max(2, Math.floor(overlapLimits.trainFlush / this.out.partitions)))) {
+      // Sorted and each key once: a group's text repeats its n-grams (about 4 in 10 here), and the
+      // partition step's sort is several times faster on runs already in order. A copy: the stream
+      // holds what it is given until written, and the column is reused.
+      await this.out.part("ng-train", p).write(new Uint8Array(sortUnique(t.view()).slice().buffer));
       t.length = 0;
     }
     for (const [name, list] of [

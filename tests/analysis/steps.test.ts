@@ -97,7 +97,7 @@ const nonEmptyGroups = (n: number, cuts: number[]) => {
 
 /** Shrinks every buffer so flushes, spills and chunked reads happen on a few dozen records. */
 function tinyLimits(): void {
-  Object.assign(overlapLimits, { partFlush: 8, readWords: 5, rowCache: 2, distinctBudget: 5 });
+  Object.assign(overlapLimits, { partFlush: 8, trainFlush: 8, readWords: 5, rowCache: 2, distinctBudget: 5 });
 }
 
 /** The property: the steps' figures are the one-pass analyzers', byte for byte as JSON (key order included). */
