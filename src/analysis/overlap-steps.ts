@@ -31,10 +31,10 @@
 //
 // Files of group g (own): meta.json (per split: documents, short documents, n-gram positions, unigram
 // tokens and ids), unigram.bin (Float64 counts per split), sig.bin (per document: bands band keys,
-// then k signature values, uint32). Per partition: ng-train (64-bit keys, in runs
-// sorted and without repeats, one per flush of the group's buffer), ng-held (hi, lo, split
-// code | TEXT_FLAG, number in split: 4 × uint32), bands-train (key, band, row: 3 × uint32),
-// bands-held (key, band, row, split code, number in split: 5 × uint32). Numbers are in this
+// then k signature values, uint32). Per partition: ng-train (64-bit keys, in runs sorted and
+// without repeats, one per flush of the group's buffer), ng-held (hi, lo, split code | TEXT_FLAG,
+// number in split: 4 × uint32), bands-train (key, band, row: 3 × uint32), bands-held (key, band,
+// row, split code, number in split: 5 × uint32). Numbers are in this
 // machine's byte order: every task of a build runs on the same kind of machine.
 // Shared by partition p: overlap.json (counts) and docs.bin (the document lists, uint32).
 import { closeSync, openSync, readSync } from "node:fs";
@@ -59,10 +59,11 @@ const BATCH_CHARS = 1 << 22;
 /**
  * Buffer sizes. Numbers buffered across the partition files (a file is written when it holds its share,
  * so memory does not grow with the number of partitions); train's key halves likewise, in a larger
- * buffer (32 MiB: a default packing group's keys fit it, so each of its partition files is one sorted
- * run); words per read of a partition file (8 MiB); held-out signature rows kept while joining buckets (a bucket's members are met again and
- * again); train keys a partition step counts in memory before it spills (distinct-keys.ts). Tests
- * shrink them to exercise every flush, spill and chunk boundary on small inputs.
+ * buffer (32 MiB: a default packing group's keys fit it, so each of its partition files is one
+ * sorted run); words per read of a partition file (8 MiB); held-out signature rows kept while
+ * joining buckets (a bucket's members are met again and again); train keys a partition step counts
+ * in memory before it spills (distinct-keys.ts). Tests shrink them to exercise every flush, spill
+ * and chunk boundary on small inputs.
  */
 export const overlapLimits = { partFlush: 1 << 20, trainFlush: 1 << 23, readWords: 1 << 21, rowCache: 4096, distinctBudget: DISTINCT_BUDGET };
 /** Marks a held-out text fingerprint among its n-gram keys. */
