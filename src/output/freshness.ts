@@ -1,7 +1,9 @@
 // Whether an earlier build is still what the pipeline would build, answered from hashes without
-// building: the tool and Node versions, the pipeline's hash, every input file (size and modification
-// time, else its XXH64) and every file a stage reads besides the records (protected texts, a
-// tokenizer file), against what the build recorded. `run` says so and leaves the build as it is.
+// building: the tool and Node versions, the pipeline's hash, every input file (size, modification
+// and change times, else its XXH64) and every file a stage reads besides the records (protected
+// texts, a tokenizer file), against what the build recorded. `run` says so and leaves the build as
+// it is. An input whose size and times are as recorded is taken as unchanged; any other is hashed,
+// and only different bytes count.
 //
 // What the build recorded lives in build-info.json (`freshness`), which holds machine facts and is
 // kept out of the manifest's checksums: modification times differ from machine to machine, the
@@ -20,8 +22,12 @@ export interface Freshness {
   siftpack: string;
   node: string;
   pipeline_hash: string;
-  /** Input files as the manifest lists them, with the size and modification time seen before the build read them. */
-  inputs: { source: string; path: string; size: number; mtime_ms: number }[];
+  /**
+   * Input files as the manifest lists them, with the size, modification and change times seen
+   * before the build read them (the change time catches a rewrite whose modification time was set
+   * back, as `cp -p`, `tar` or `rsync -t` do: no program can set it; absent in older records).
+   */
+  inputs: { source: string; path: string; size: number; mtime_ms: number; ctime_ms?: number }[];
   /** Files stages read besides the records, with their XXH64. */
   reads: { path: string; xxh64: string }[];
 }
@@ -32,7 +38,7 @@ export async function snapshot(p: LoadedPipeline): Promise<Freshness> {
   for (const source of p.config.sources)
     for (const path of await listFiles(source, p.baseDir)) {
       const st = await stat(join(p.baseDir, path));
-      inputs.push({ source: source.name, path, size: st.size, mtime_ms: st.mtimeMs });
+      inputs.push({ source: source.name, path, size: st.size, mtime_ms: st.mtimeMs, ctime_ms: st.ctimeMs });
     }
   const reads: Freshness["reads"] = [];
   await loadHasher();
@@ -93,7 +99,7 @@ export async function checkFreshness(p: LoadedPipeline, outDir: string): Promise
     if (!m) return { fresh: false, why: `input added: ${i.path}`, now };
     if (m.size !== i.size) return { fresh: false, why: `input changed: ${i.path} (size)`, now };
     const r = seen.get(key(i));
-    if (r && r.size === i.size && r.mtime_ms === i.mtime_ms) continue;
+    if (r && r.size === i.size && r.mtime_ms === i.mtime_ms && r.ctime_ms === i.ctime_ms) continue;
     // Touched (or copied) but maybe not changed: its bytes decide.
     hashed++;
     if ((await hashFile(join(p.baseDir, i.path))).xxh64 !== m.xxh64) return { fresh: false, why: `input changed: ${i.path}`, now };

@@ -5,7 +5,7 @@
 // lines, group split, decontamination, the mixture, the overlap figures); its packing groups are
 // made small so that a change leaves some of them as they were.
 import { describe, expect, it } from "vitest";
-import { readdirSync, readFileSync, rmSync, statSync, writeFileSync } from "node:fs";
+import { readdirSync, readFileSync, rmSync, statSync, utimesSync, writeFileSync } from "node:fs";
 import { gunzipSync, gzipSync } from "node:zlib";
 import { join } from "node:path";
 import { demoCopy, outputFiles, siftpack } from "./cli.js";
@@ -95,6 +95,30 @@ describe("a rebuild reuses what a change does not reach, and builds the bytes of
     const again = run("--force");
     expect(again.steps.computed).toBe(0);
     expect(built()).toEqual(cleanBytes);
+  });
+
+  it("an input rewritten with its size and modification time kept is hashed and read again", async () => {
+    const { dir, run, clean, built } = setup();
+    const notes = join(dir, "sample-data/notes/shift-notes.csv");
+    // A whole second, which utimes sets exactly; then 2 s more, so the inputs' hashes are kept (src/cache/input-hashes.ts).
+    const then = Math.floor(Date.now() / 1000) - 3600;
+    utimesSync(notes, then, then);
+    await new Promise((r) => setTimeout(r, 2300));
+    run();
+    const cache = join(dir, "build/.demo.cache");
+    expect(readdirSync(cache).filter((n) => /^hash-[0-9a-f]{16}\.json$/.test(n)).length).toBeGreaterThan(0);
+    // Same length, another road; the modification time set back, as `cp -p`, `tar` or `rsync -t` would.
+    const size = statSync(notes).size;
+    writeFileSync(notes, readFileSync(notes, "utf8").replace("Pit lights on road 3 flickering", "Pit lights on road 4 flickering"));
+    utimesSync(notes, then, then);
+    expect(statSync(notes).size).toBe(size);
+    expect(statSync(notes).mtimeMs).toBe(then * 1000);
+    // Not "up to date", and not built from the kept hash of the old bytes.
+    const r = siftpack(["run", join(dir, "pipelines/demo.yaml"), "--workers", "2"], { env: { ...env, SIFTPACK_LOG: "info" } });
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stdout).not.toMatch(/up to date/);
+    expect(r.stderr).toMatch(/building: input changed: .*shift-notes\.csv/);
+    expect(built()).toEqual(clean());
   });
 
   it("a cache entry edited behind siftpack's back is found stale, not used, and made again", () => {
