@@ -95,9 +95,10 @@ interface Entry {
 
 /** A conversation's targets when it is not cut: its trained tokens, less its first token if that is one. */
 function trainedTargets(layout: Uint32Array): number {
+  const spans = turnSpans(layout);
   let n = 0;
-  for (const t of turnSpans(layout)) n += t.end - t.learn;
-  return turnSpans(layout).some((t) => t.learn === 0 && t.end > 0) ? n - 1 : n;
+  for (const t of spans) n += t.end - t.learn;
+  return spans.some((t) => t.learn === 0 && t.end > 0) ? n - 1 : n;
 }
 
 /** Train, val, test first, then other split names by name: the order of the one-pass analyzer. */

@@ -5,6 +5,8 @@ import { basename, dirname, join } from "node:path";
 import { threadId } from "node:worker_threads";
 import { canonicalJson } from "../lib/canonical-json.js";
 import { hex64, xxh64String } from "../lib/hash.js";
+import { describeSystemError } from "../errors.js";
+import type { Logger } from "../types.js";
 
 /** read: a unit's records as read; tokens: token ids; step: a later step's files; hash: an input's hashes (input-hashes.ts). */
 export type UnitKind = "read" | "tokens" | "step" | "hash";
@@ -22,6 +24,15 @@ export interface CacheReport {
 /** An empty report (a build that did not run). */
 export function noCacheReport(): CacheReport {
   return { read: { reused: 0, computed: 0 }, tokens: { reused: 0, computed: 0, records_reused: 0, records_computed: 0 }, steps: { reused: 0, computed: 0 }, size: { entries: 0, bytes: 0, removed: 0 } };
+}
+
+/** Adds `sign` × `from`'s counts (read, tokens, steps; not the folder's size) to `into`. */
+export function addCounts(into: CacheReport, from: CacheReport, sign = 1): void {
+  for (const kind of ["read", "tokens", "steps"] as const) {
+    const a = into[kind] as Record<string, number>;
+    const b = from[kind] as Record<string, number>;
+    for (const k of Object.keys(a)) a[k] += sign * b[k];
+  }
 }
 
 /** Entries and bytes of the cache folder `dir` as it is now. */
@@ -96,11 +107,6 @@ export class BuildCache {
     }
   }
 
-  /** Whether a lookup may find entries (false under `run --no-cache`). */
-  get reusing(): boolean {
-    return this.reuse;
-  }
-
   /** Starts collecting the names of entries used from now on; the returned function stops and gives them. */
   watch(): () => string[] {
     const names: string[] = [];
@@ -121,12 +127,7 @@ export class BuildCache {
   /** What a task run elsewhere (a task thread, with a cache object of its own) used and counted. */
   absorb(used: string[], report: CacheReport | undefined): void {
     this.use(used);
-    if (!report) return;
-    this.report.read.reused += report.read.reused;
-    this.report.read.computed += report.read.computed;
-    for (const k of ["reused", "computed", "records_reused", "records_computed"] as const) this.report.tokens[k] += report.tokens[k];
-    this.report.steps.reused += report.steps.reused;
-    this.report.steps.computed += report.steps.computed;
+    if (report) addCounts(this.report, report);
   }
 
   /**
@@ -143,5 +144,13 @@ export class BuildCache {
     }
     this.report.size = { ...(await cacheSize(this.dir)), removed };
     return removed;
+  }
+
+  /** `prune`, once the build is published: an entry that cannot be removed is worth a warning, not a failure. */
+  pruneOrWarn(log: Logger): Promise<number> {
+    return this.prune().catch((err) => {
+      log.warn({ cache: this.dir }, `cannot prune the cache ${this.dir}: ${describeSystemError(err)}`);
+      return 0;
+    });
   }
 }

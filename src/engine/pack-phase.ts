@@ -3,7 +3,7 @@
 // blocks (best-fit looks ahead within the group; rows shuffled within the group), the group's shards
 // written, and the analyses' collectors fed. Everything lands in <work>/pack/groups/<g>/; assemble
 // joins the groups without reading a token.
-import { mkdir, rm, writeFile } from "node:fs/promises";
+import { mkdir, writeFile } from "node:fs/promises";
 import { join } from "node:path";
 import { createPacker, type Packer } from "../stages/pack.js";
 import type { OutputSettings } from "../stages/output-settings.js";
@@ -50,13 +50,12 @@ export interface PackGroupOptions {
   ids?: number;
 }
 
-/** Packs one group into its directory (removed first: a rerun starts clean). */
+/** Packs one group into its directory, which the caller has removed (a rerun starts clean, and a group linked from the cache finds no stale files). */
 export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOptions): Promise<GroupResult> {
   const { p, plan } = env;
   const { config } = p;
   const work = plan.workDir;
   const dir = groupDir(work, env.phase.name, group.g);
-  await rm(dir, { recursive: true, force: true });
   await mkdir(dir, { recursive: true });
   const ledger = new Ledger(join(dir, "ledger.jsonl.gz"), join(dir, "quarantine.jsonl"));
   const pack = o.out.pack;

@@ -128,8 +128,7 @@ async function runLocked(p: LoadedPipeline, opts: RunOptions, units: Unit[]): Pr
         opts.log[failed ? "debug" : "warn"]({ workDir: plan.workDir }, `cannot remove the work directory ${plan.workDir}: ${describeSystemError(err)}; the next run removes it`),
       );
   }
-  // The build is published: a cache entry that cannot be removed is worth a warning, not a failure.
-  await cache.prune().catch((err) => opts.log.warn({ cache: cache.dir }, `cannot prune the cache ${cache.dir}: ${describeSystemError(err)}`));
+  await cache.pruneOrWarn(opts.log);
   // The summary says it on stdout; here for those who read the debug log.
   opts.log.debug({ cache: cache.report }, "cache");
   return { outDir: p.outDir, manifest: manifest!, cache: cache.report, phases: finished };

@@ -18,7 +18,7 @@ import { mixtureOf, tallyFile, talliesHere } from "./mixture-tally.js";
 import { applierOf, dropsFile, keyedDirs, sourceOf, summaryFile, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
 
 /** The fingerprint of unit u's file written by phase `phase`, when that phase left one. */
-export function fingerprintOf(env: TaskEnv, phase: string, u: number): string | undefined {
+function fingerprintOf(env: TaskEnv, phase: string, u: number): string | undefined {
   for (const d of env.done.get(phase) ?? []) {
     const f = d.units[String(u)];
     if (f) return f.fp;
@@ -27,7 +27,7 @@ export function fingerprintOf(env: TaskEnv, phase: string, u: number): string | 
 }
 
 /** A stage entry as it decides bytes: its options and what it reads besides (a tokenizer file's content). */
-export function entryIdentity(e: StageEntry, baseDir: string): unknown {
+function entryIdentity(e: StageEntry, baseDir: string): unknown {
   const def = STAGES[e.name];
   return { [e.name]: e.options, ...(def?.identity ? { identity: def.identity(e.options, baseDir) } : {}) };
 }

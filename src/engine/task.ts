@@ -6,7 +6,7 @@ import { availableParallelism } from "node:os";
 import { dirname, join } from "node:path";
 import { SiftpackError, describeSystemError, isSystemError } from "../errors.js";
 import { loadHasher } from "../lib/hash.js";
-import { BuildCache, cacheDirOf, type CacheReport } from "../cache/build-cache.js";
+import { addCounts, BuildCache, cacheDirOf, noCacheReport } from "../cache/build-cache.js";
 import { recordPool } from "../parallel/record-pool.js";
 import type { LoadedPipeline } from "../pipeline/load.js";
 import type { Logger, StageContext } from "../types.js";
@@ -131,7 +131,8 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   let files: string[] = [];
   const cache = opts.buildCache ?? new BuildCache(cacheDirOf(p.outDir), opts.cache ?? true);
   await cache.open();
-  const before: CacheReport = JSON.parse(JSON.stringify(cache.report));
+  const before = noCacheReport();
+  addCounts(before, cache.report);
   const memo = new StepMemo(cache, work, log);
   /**
    * Runs a step, or links its files from the cache when `key` has an entry there; its result comes
@@ -179,11 +180,11 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       const check = sourcesToCheck(units);
       const ids = plan.keyed.has(IDS_CHECK) && check.size > 0 ? { dirs: keyedDirs(env, IDS_CHECK), collectors: await uniqueIdsForm.collectors({}, { ...stepContext(env, count), threads }) } : undefined;
       try {
+        const tally = talliesHere(env);
         for (const u of share) {
           const r = await readUnit(env, u, does.entries, pool, cache);
           for (const [name, n] of Object.entries(r.counts)) count(name, n);
           unitFacts[u] = { rows: r.rows, records: r.records, size: r.size, xxh64: r.xxh64, lines: r.lines, fp: r.fp };
-          const tally = talliesHere(env);
           const feed = ids ? check.has(units[u].source.name) : undefined;
           if (tally || ids)
             await step(
@@ -234,6 +235,7 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       try {
         for (const g of share) {
           const dir = groupDir(work, phase.name, g);
+          // Cleared for either way the step goes: packed anew, or linked from the cache.
           await rm(dir, { recursive: true, force: true });
           await step(
             await packKey(env, groups[g], count),
@@ -266,18 +268,10 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     }
     throw err;
   }
-  const report: CacheReport = {
-    read: { reused: cache.report.read.reused - before.read.reused, computed: cache.report.read.computed - before.read.computed },
-    steps: { reused: cache.report.steps.reused - before.steps.reused, computed: cache.report.steps.computed - before.steps.computed },
-    tokens: {
-      reused: cache.report.tokens.reused - before.tokens.reused,
-      computed: cache.report.tokens.computed - before.tokens.computed,
-      records_reused: cache.report.tokens.records_reused - before.tokens.records_reused,
-      records_computed: cache.report.tokens.records_computed - before.tokens.records_computed,
-    },
-    // The folder's size is the run's to say, once it has pruned.
-    size: { entries: 0, bytes: 0, removed: 0 },
-  };
+  // What this task counted; the folder's size is the run's to say, once it has pruned.
+  const report = noCacheReport();
+  addCounts(report, cache.report);
+  addCounts(report, before, -1);
   // A task in a process of its own (a cluster's) lists the cache entries it used, for the assemble task's pruning.
   const used = opts.buildCache ? undefined : cache.takeUsed();
   const d: TaskDone = { plan: key, phase: phase.name, index, tasks: phase.tasks, counts, units: unitFacts, files, cache: report, seconds: (Date.now() - started) / 1000, ...(used ? { used } : {}) };
@@ -387,10 +381,7 @@ async function collectOnly(env: TaskEnv, u: number, collector: Awaited<ReturnTyp
 async function pruneAfterTasks(cache: BuildCache, done: TaskDone[], log: Logger): Promise<void> {
   if (done.some((d) => d.used === undefined)) return;
   for (const d of done) cache.use(d.used!);
-  const removed = await cache.prune().catch((err) => {
-    log.warn({ cache: cache.dir }, `cannot prune the cache ${cache.dir}: ${describeSystemError(err)}`);
-    return 0;
-  });
+  const removed = await cache.pruneOrWarn(log);
   if (removed > 0) log.info({ cache: cache.dir, removed }, `cache: ${removed} entries no task of this build used removed`);
 }
 
