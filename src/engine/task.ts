@@ -137,16 +137,18 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   /**
    * Runs a step, or links its files from the cache when `key` has an entry there; its result comes
    * back either way, and its counters and warnings are raised again when it is reused. `reused`
-   * advances the progress by what the step would have read.
+   * advances the progress by what the step would have read. `run` returns once the step has counted
+   * and warned all it will, with `written`: its files still going to disk; the step's end (its files
+   * kept in the cache) comes back as `end`, so the caller can start the next step meanwhile.
    */
-  const step = async <M>(key: string | undefined, run: () => Promise<M>, files: () => Promise<string[]>, reused?: () => Promise<void>): Promise<M> => {
+  const begin = async <M>(key: string | undefined, run: () => Promise<{ written: Promise<M> }>, files: () => Promise<string[]>, reused?: () => Promise<void>): Promise<{ end: Promise<M> }> => {
     type Kept = { result: M; counts: Record<string, number>; warnings?: [object | string, string | undefined][] };
     const hit = key === undefined ? undefined : await memo.restore<Kept>(key);
     if (hit) {
       for (const [name, n] of Object.entries(hit.counts)) count(name, n);
       for (const [o, m] of hit.warnings ?? []) log.warn(o, m);
       await reused?.();
-      return hit.result;
+      return { end: Promise.resolve(hit.result) };
     }
     const noted: Record<string, number> = {};
     const warnings: NonNullable<Kept["warnings"]> = [];
@@ -157,17 +159,25 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       warn(o, m);
     };
     const watch = cache.watch();
-    let result: M;
+    let written: Promise<M>;
     try {
-      result = await run();
+      ({ written } = await run());
     } finally {
       stepCounts = undefined;
       log.warn = warn;
     }
     const used = watch();
-    if (key !== undefined) await memo.save<Kept>(key, await files(), { result, counts: noted, ...(warnings.length ? { warnings } : {}) }, used);
-    return result;
+    const end = written.then(async (result) => {
+      if (key !== undefined) await memo.save<Kept>(key, await files(), { result, counts: noted, ...(warnings.length ? { warnings } : {}) }, used);
+      return result;
+    });
+    // Awaited by the caller later; a failure meanwhile is not an unhandled rejection.
+    end.catch(() => {});
+    return { end };
   };
+  /** A step run to its end. */
+  const step = async <M>(key: string | undefined, run: () => Promise<M>, files: () => Promise<string[]>, reused?: () => Promise<void>): Promise<M> =>
+    (await begin(key, async () => ({ written: Promise.resolve(await run()) }), files, reused)).end;
   /** The progress of a reused step: the bytes phase k would have read for these units. */
   const readBytes = async (us: number[]) => meter.bytes(await unitFilesBytes(plan, k, us));
   let manifest: Manifest | undefined;
@@ -232,18 +242,29 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     } else if (does.kind === "pack") {
       const analyses: PackGroupOptions["analyses"] = [];
       for (const a of analysisFiles()) analyses.push({ ...a, collectors: await a.steps.collectors(a.ctx, { ...stepContext(env, count), threads }) });
+      // A group's files are written while the next group is packed; one group at a time waits to be written.
+      let writing: Promise<unknown> = Promise.resolve();
+      let next: Promise<unknown> = Promise.resolve();
       try {
         for (const g of share) {
           const dir = groupDir(work, phase.name, g);
           // Cleared for either way the step goes: packed anew, or linked from the cache.
           await rm(dir, { recursive: true, force: true });
-          await step(
+          const { end } = await begin(
             await packKey(env, groups[g], count),
-            async () => void (await packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined })),
+            () => packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined }),
             async () => [...(await filesUnder(dir)), ...(await Promise.all(analyses.map((a) => collectedFiles(a.dirs.collect, g)))).flat()],
             () => readBytes(groups[g].units),
           );
+          next = end;
+          await writing;
+          writing = end;
         }
+        await writing;
+      } catch (err) {
+        // Nothing is left writing when the task fails.
+        await Promise.allSettled([writing, next]);
+        throw err;
       } finally {
         for (const a of analyses) await a.collectors.close();
       }

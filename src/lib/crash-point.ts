@@ -3,7 +3,8 @@
 // (a record written by a pass or whole phase), partition (a keyed partition step starts), resolve
 // (a resolve step starts), whole (a record leaves a whole-stream phase), records (a record reaches
 // the packer in assemble), write (between the first and the rest of an output file's parts).
-// Unset (always, outside those tests) it costs one comparison.
+// "NAME:N:throw" throws an error there instead (a failed write, for the tests of failures). Unset
+// (always, outside those tests) it costs one comparison.
 const at = process.env.SIFTPACK_CRASH_AT;
 const counts = new Map<string, number>();
 
@@ -12,6 +13,7 @@ export function crashPoint(name: string): void {
   const n = (counts.get(name) ?? 0) + 1;
   counts.set(name, n);
   if (at === `${name}:${n}`) process.kill(process.pid, "SIGKILL");
+  if (at === `${name}:${n}:throw`) throw new Error(`injected failure at ${name}:${n}`);
 }
 
 const failOn = process.env.SIFTPACK_FAIL_ON_RECORD;

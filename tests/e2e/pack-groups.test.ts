@@ -48,6 +48,20 @@ describe("packing groups", () => {
     expect([...val].sort()).toEqual(val);
   });
 
+  it("a group's shard failing to be written (while one task packs the next group) fails the build in one line; the next run gives the same bytes", () => {
+    // One task packs every group; the first file written is group 0's first shard, at the group's end.
+    const file = pipelineWith(dir, "failed", 1);
+    const failed = siftpack(["run", file, "--workers", "1", "--no-cache", "--quiet"], { cwd: dir, env: { SIFTPACK_CRASH_AT: "write:1:throw" } });
+    expect(failed.code).toBe(1);
+    expect(failed.stderr.trim().split("\n")).toEqual(["siftpack: internal error: injected failure at write:1 (set SIFTPACK_DEBUG=1 for the stack; please report it)"]);
+    const again = siftpack(["run", file, "--workers", "1", "--quiet"], { cwd: dir });
+    expect(again.code, again.stderr).toBe(0);
+    const local = outputFiles(join(dir, "build/local"));
+    const built = outputFiles(join(dir, "build/failed"));
+    expect(Object.keys(built).sort()).toEqual(Object.keys(local).sort());
+    for (const f of Object.keys(local)) expect(built[f], f).toBe(local[f]);
+  }, 120_000);
+
   it("a 3-task plan as separate processes gives the same bytes", () => {
     const file = pipelineWith(dir, "t3", 3);
     const plan = JSON.parse(siftpack(["plan", file, "--tasks", "--json"], { cwd: dir }).stdout);
