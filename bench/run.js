@@ -3,7 +3,7 @@
 // workers, and peak memory at two corpus sizes. Prints a table and writes build/bench/results.json.
 //
 //   node bench/run.js [--small-mb 50] [--large-mb 200] [--skip-minhash] [--skip-cluster]
-import { readFileSync, writeFileSync, mkdirSync, rmSync } from "node:fs";
+import { readFileSync, writeFileSync, mkdirSync, rmSync, readdirSync, renameSync } from "node:fs";
 import { join } from "node:path";
 import { spawnSync } from "node:child_process";
 import { availableParallelism } from "node:os";
@@ -143,15 +143,28 @@ const extraLines = readFileSync(await makeCorpus(join(work, "append-extra"), ext
 writeFileSync(join(appendDir, "part-8.jsonl"), extraLines.join("\n") + "\n");
 const appendAgain = run(appendPipeline, cores, "cache");
 const appendedMb = readFileSync(join(appendDir, "part-8.jsonl")).length / 1e6;
-results.pipeline.append = { first_s: appendFirst.sec, appended_mb: appendedMb, appended_share: appendedMb / largeInputMb, rebuild_s: appendAgain.sec, share_of_first: appendAgain.sec / appendFirst.sec, steps: appendAgain.cache.steps };
+// The rebuild must be a clean build's bytes: set aside, the same pipeline built again without the
+// cache, compared file for file (all but build-info.json, which holds times and paths).
+const kept = join(work, "out-append-rebuilt");
+rmSync(kept, { recursive: true, force: true });
+renameSync(join(work, "out-append"), kept);
+run(appendPipeline, cores);
+const filesOf = (dir, rel = "") =>
+  readdirSync(join(dir, rel), { withFileTypes: true }).flatMap((e) => (e.isDirectory() ? filesOf(dir, join(rel, e.name)) : [join(rel, e.name)]));
+const rebuilt = filesOf(kept).filter((f) => f !== "build-info.json").sort();
+const clean = filesOf(join(work, "out-append")).filter((f) => f !== "build-info.json").sort();
+const appendSame = rebuilt.length === clean.length && rebuilt.every((f, i) => f === clean[i] && readFileSync(join(kept, f)).equals(readFileSync(join(work, "out-append", f))));
+if (!appendSame) throw new Error("the rebuild after the append differs from a clean build of the same files (build/bench/out-append-rebuilt, build/bench/out-append)");
+const appendResult = { first_s: appendFirst.sec, appended_mb: appendedMb, appended_share: appendedMb / largeInputMb, rebuild_s: appendAgain.sec, share_of_first: appendAgain.sec / appendFirst.sec, steps: appendAgain.cache.steps, identical_to_clean: appendSame };
 rows.push([
   `append ${((100 * appendedMb) / largeInputMb).toFixed(1)} % to a ${largeInputMb.toFixed(0)} MB build (with MinHash)`,
   "",
   "",
-  `${appendAgain.sec.toFixed(1)} s = ${((100 * appendAgain.sec) / appendFirst.sec).toFixed(0)} % of its first build (${appendFirst.sec.toFixed(1)} s); ${appendAgain.cache.steps.reused} of ${appendAgain.cache.steps.reused + appendAgain.cache.steps.computed} later steps reused`,
+  `${appendAgain.sec.toFixed(1)} s = ${((100 * appendAgain.sec) / appendFirst.sec).toFixed(0)} % of its first build (${appendFirst.sec.toFixed(1)} s); ${appendAgain.cache.steps.reused} of ${appendAgain.cache.steps.reused + appendAgain.cache.steps.computed} later steps reused; identical to a clean build`,
 ]);
 rmSync(appendDir, { recursive: true, force: true });
 rmSync(join(work, "out-append"), { recursive: true, force: true });
+rmSync(kept, { recursive: true, force: true });
 rmSync(join(work, ".out-append.cache"), { recursive: true, force: true });
 results.pipeline = {
   input_mb: largeInputMb,
@@ -160,6 +173,7 @@ results.pipeline = {
   scaling: p1.sec / pN.sec,
   tokenize_only_1_worker_mb_s: largeInputMb / tok1.sec,
   full_vs_tokenize_only: tok1.sec / p1.sec,
+  append: appendResult,
 };
 rows.push([`pipeline, 1 worker (${largeInputMb.toFixed(0)} MB)`, (largeInputMb / p1.sec).toFixed(1), "", `${p1.sec.toFixed(1)} s`]);
 rows.push([`pipeline, ${cores} workers`, (largeInputMb / pN.sec).toFixed(1), "", `${(p1.sec / pN.sec).toFixed(2)}× one worker`]);
