@@ -30,6 +30,11 @@ export interface HashRequest {
   text: Uint8Array;
   ends: Uint32Array;
   train: Uint8Array;
+  /**
+   * Signatures made before (by the MinHash dedup stage, src/analysis/dedup-signatures.ts): text i's
+   * are values [i·k, (i+1)·k) of `values` where `has[i]` is 1; the others are signed here.
+   */
+  given?: { has: Uint8Array; values: Uint32Array };
 }
 
 /** Gathers texts into a HashRequest. */
@@ -38,23 +43,26 @@ export class TextBatch {
   private at = 0;
   private ends: number[] = [];
   private train: number[] = [];
+  private has: number[] = [];
+  private signatures: Uint32Array[] = [];
 
   get count(): number {
     return this.ends.length;
   }
 
-  add(text: string, train: boolean): void {
+  /** A text, with its signature when one was made before. */
+  add(text: string, train: boolean, signature?: Uint32Array): void {
     this.room(3 * text.length);
     this.at += this.buf.write(text, this.at, "utf8");
-    this.end(train);
+    this.end(train, signature);
   }
 
   /** A text given as its UTF-8 bytes. */
-  addBytes(utf8: Uint8Array, train: boolean): void {
+  addBytes(utf8: Uint8Array, train: boolean, signature?: Uint32Array): void {
     this.room(utf8.length);
     this.buf.set(utf8, this.at);
     this.at += utf8.length;
-    this.end(train);
+    this.end(train, signature);
   }
 
   private room(bytes: number): void {
@@ -65,18 +73,28 @@ export class TextBatch {
     this.buf = bigger;
   }
 
-  private end(train: boolean): void {
+  private end(train: boolean, signature?: Uint32Array): void {
     this.ends.push(this.at);
     this.train.push(train ? 1 : 0);
+    this.has.push(signature ? 1 : 0);
+    if (signature) this.signatures.push(signature);
   }
 
   /** The batch (in memory of its own, never Node's shared pool, so it can move); then empty. */
   take(partitions: number): HashRequest {
-    const req = { partitions, text: this.buf.subarray(0, this.at), ends: Uint32Array.from(this.ends), train: Uint8Array.from(this.train) };
+    const req: HashRequest = { partitions, text: this.buf.subarray(0, this.at), ends: Uint32Array.from(this.ends), train: Uint8Array.from(this.train) };
+    if (this.signatures.length > 0) {
+      const k = this.signatures[0].length;
+      const values = new Uint32Array(this.ends.length * k);
+      for (let i = 0, s = 0; i < this.ends.length; i++) if (this.has[i]) values.set(this.signatures[s++], i * k);
+      req.given = { has: Uint8Array.from(this.has), values };
+    }
     this.buf = Buffer.allocUnsafeSlow(this.buf.length);
     this.at = 0;
     this.ends = [];
     this.train = [];
+    this.has = [];
+    this.signatures = [];
     return req;
   }
 }
@@ -120,7 +138,7 @@ export class DocHasher {
     this.signer = p.signer ? new BatchSigner(p.signer) : undefined;
   }
 
-  hash({ partitions, text, ends, train }: HashRequest): HashedBatch {
+  hash({ partitions, text, ends, train, given }: HashRequest): HashedBatch {
     const count = ends.length;
     const bytes = Buffer.from(text.buffer, text.byteOffset, text.byteLength);
     const texts: string[] = [];
@@ -153,7 +171,23 @@ export class DocHasher {
     }
     const grouped = byPartition(keys.view(), partitions);
     const out: HashedBatch = { count, ngrams, hi: hi.view().slice(), lo: lo.view().slice(), trainKeys: grouped.keys, trainStarts: grouped.starts, textHi, textLo };
-    if (this.signer) {
+    if (this.signer && given) {
+      // Only the texts without a signature are signed; the given ones get their band keys here.
+      const { permutations: k, bands } = this.signer.params;
+      const s = this.signer.sign(texts.filter((_, i) => !given.has[i]));
+      const signatures = given.values;
+      const bandKeys = new Uint32Array(count * bands);
+      for (let i = 0, j = 0; i < count; i++) {
+        if (given.has[i]) this.signer.bandKeysOf(signatures, i, bandKeys);
+        else {
+          signatures.set(s.signatures.subarray(j * k, (j + 1) * k), i * k);
+          bandKeys.set(s.bandKeys.subarray(j * bands, (j + 1) * bands), i * bands);
+          j++;
+        }
+      }
+      out.signatures = signatures;
+      out.bandKeys = bandKeys;
+    } else if (this.signer) {
       const s = this.signer.sign(texts);
       out.signatures = s.signatures;
       out.bandKeys = s.bandKeys;
@@ -199,7 +233,7 @@ export function hashPool(params: HashParams, threads: number): WorkerPool<HashRe
     init: params,
     threads,
     name: "overlap hashing worker",
-    transfer: (r) => [r.text.buffer as ArrayBuffer, r.ends.buffer as ArrayBuffer, r.train.buffer as ArrayBuffer],
+    transfer: (r) => [r.text.buffer as ArrayBuffer, r.ends.buffer as ArrayBuffer, r.train.buffer as ArrayBuffer, ...(r.given ? [r.given.has.buffer as ArrayBuffer, r.given.values.buffer as ArrayBuffer] : [])],
     local: async () => {
       await loadHasher();
       const h = new DocHasher(params);

@@ -52,6 +52,7 @@ import type { WordForm } from "../overlap/words.js";
 import { DISTINCT_BUDGET, DistinctKeys, HI, LO, mergeFind, sortUnique, spillOf } from "./distinct-keys.js";
 import { hashPool, keyPartition, TextBatch, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
 import { nearDupOf, overlapApplies, vocabSizeOf } from "./overlap-settings.js";
+import { givenSignature } from "./dedup-signatures.js";
 
 /** Texts per hashing batch, and the text size that closes a batch early. */
 const BATCH_DOCS = 1024;
@@ -132,8 +133,10 @@ class GroupCollector implements UnitCollector {
     if (r.tokens) s.unigram.add(r.tokens);
     this.items.push({ code, n: s.meta.documents++ });
     // Bytes as they come from the unit file when the pack phase leaves them undecoded (what a batch holds anyway).
-    if (r.utf8) this.texts.addBytes(r.utf8, s.train);
-    else this.texts.add(r.text, s.train);
+    // A signature the MinHash dedup stage made of this text, handed on by the pack phase (dedup-signatures.ts).
+    const signature = this.nearDup ? givenSignature(r) : undefined;
+    if (r.utf8) this.texts.addBytes(r.utf8, s.train, signature);
+    else this.texts.add(r.text, s.train, signature);
     this.chars += r.utf8 ? r.utf8.length : r.text.length;
     if (this.items.length >= BATCH_DOCS || this.chars >= BATCH_CHARS) await this.send(false);
   }

@@ -5,7 +5,7 @@
 // each and writes clusters.jsonl. Documents are numbered in input order across units, so every
 // decision equals that of one stream through the stage, whatever the units and partitions.
 //
-// Files of one unit (own): sig.bin (k uint32 per record, in order), docs.jsonl ({i, id, s, len,
+// Files of one unit (own): sig.bin (k uint32 per record, in order), docs.jsonl ({i, id, s, len, b,
 // short} per record, and {at, n}: the text's bytes in texts.bin with confirm: exact).
 // Per partition: buckets.bin, entries (band key, band, unit, record j of the unit) as 4 × uint32,
 // partition = band key mod partitions. A partition shares edges.bin, confirmed pairs as uint32 (a, b).
@@ -43,6 +43,7 @@ interface Doc {
   id: string;
   s: string;
   len: number;
+  b?: number;
   short: number;
   at?: number;
   n?: number;
@@ -94,7 +95,8 @@ class UnitSigner implements UnitCollector {
     let lines = "";
     for (let i = 0; i < res.count; i++) {
       const r = docs[i];
-      const doc: Doc = { i: r.seq, id: r.id, s: r.source, len: r.text.length, short: res.short[i] };
+      // b: the text's UTF-8 length, by which the overlap figures check a signature before they take it (src/analysis/dedup-signatures.ts).
+      const doc: Doc = { i: r.seq, id: r.id, s: r.source, len: r.text.length, b: Buffer.byteLength(r.text, "utf8"), short: res.short[i] };
       if (this.keepTexts) {
         const bytes = Buffer.from(r.text, "utf8");
         doc.at = this.textBytes;

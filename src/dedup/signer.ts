@@ -36,7 +36,7 @@ export class BatchSigner {
   }
 
   sign(texts: string[]): BatchResult {
-    const { permutations: k, bands, rows } = this.params;
+    const { permutations: k, bands } = this.params;
     const count = texts.length;
     const signatures = new Uint32Array(count * k);
     const bandKeys = new Uint32Array(count * bands);
@@ -49,8 +49,14 @@ export class BatchSigner {
         short[i] = 1;
         this.signer.signFingerprint(sh.keyA, sh.keyB, signatures, i * k);
       }
-      for (let t = 0; t < bands; t++) bandKeys[i * bands + t] = xxh32Lanes(signatures, i * k + t * rows, rows, this.bandSeeds[t]);
+      this.bandKeysOf(signatures, i, bandKeys);
     }
     return { count, signatures, bandKeys, short };
+  }
+
+  /** Writes the band keys of signature row i of `signatures` to row i of `bandKeys`. */
+  bandKeysOf(signatures: Uint32Array, i: number, bandKeys: Uint32Array): void {
+    const { permutations: k, bands, rows } = this.params;
+    for (let t = 0; t < bands; t++) bandKeys[i * bands + t] = xxh32Lanes(signatures, i * k + t * rows, rows, this.bandSeeds[t]);
   }
 }

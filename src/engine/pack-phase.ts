@@ -21,6 +21,8 @@ import type { QuarantineEntry } from "../sources/source.js";
 import { ConversationTally } from "../chat/tally.js";
 import { longestUncut, questionEdges, turnEdges } from "../chat/layout.js";
 import type { CutEdges } from "../pack/packer.js";
+import { giveSignature, signingStage, UnitSignatures } from "../analysis/dedup-signatures.js";
+import type { MinhashOptions } from "../dedup/options.js";
 import { dropsFile, fixFromRead, keyedDirs, materializes, recordsBefore, unitFixes, unitsFile, type PackGroup, type TaskEnv } from "./unit-io.js";
 
 /** What one group leaves for assemble (group.json). */
@@ -97,16 +99,24 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
     return { whole: w === 1 ? 1 : copiesFor(w, `${r.source}\u0000${r.id}`, config.seed), part: 0 };
   };
   const idsDirs = o.ids === undefined ? undefined : keyedDirs(env, o.ids);
+  // The MinHash dedup stage's signatures, for the near-duplicate figure when no later stage changes a text.
+  const signing = o.analyses.length > 0 ? signingStage(config) : undefined;
+  let signaturesTaken = 0;
+  const signatures = signing === undefined ? undefined : { dirs: keyedDirs(env, signing), k: (config.stages[signing].options as MinhashOptions).permutations };
   const feeds: Awaited<ReturnType<typeof collectUnit>>[] = [];
   for (const a of o.analyses) feeds.push(await collectUnit(a.dirs, a.collectors, group.g));
   const k = env.phase.index;
   // A share of a large file's rows: the rest of its units' rows are other groups'.
   const span = group.rows;
   const mine = (i: number) => !span || (i >= span.from && i < span.to);
+  // The current unit's signatures (an open file), closed before the next unit's are opened.
+  let signed: UnitSignatures | undefined;
   try {
     for (const u of group.units) {
       const fix = unitFixes(env)[u];
       const repeated = idsDirs ? await idsDirs.decisions(u) : undefined;
+      await signed?.close();
+      signed = signatures ? await UnitSignatures.open(signatures.dirs, u, signatures.k) : undefined;
       const fates: Fate[] = [];
       let truncated: TruncatedFile | undefined;
       for await (const e of readEvents(unitsFile(work, "read", u), { records: false })) {
@@ -172,6 +182,11 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         // A mixture's part copy: the record's first tokens, as its last copy (README, Mixtures); a
         // conversation's is cut at turn edges where they keep its pieces within a block.
         if (part > 0) packer.add(r.tokens!.subarray(0, part), { ...origin, ...(n > 0 ? { copy: n } : {}), part }, fit?.edges && longestUncut(r.chat!, part) <= pack.length ? { ...fit.edges, at: fit.edges.at.filter((e) => e < part) } : undefined);
+        const signature = await signed?.find(r);
+        if (signature) {
+          giveSignature(r, signature);
+          signaturesTaken++;
+        }
         for (const f of feeds) await f.add(r);
         if (writer.pending > 0) await writer.writePending();
       };
@@ -191,8 +206,11 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         env.log.warn({ source: truncated.source, file: truncated.file, rows_read: truncated.rows_read, rows_lost: truncated.rows_lost, bytes_read: truncated.bytes_read, size: truncated.size }, `source "${truncated.source}": ${truncated.file} is truncated (${truncated.error}) after ${truncated.rows_read} rows; built from what could be read (accept_truncated)`);
       }
     }
+    await signed?.close();
+    signed = undefined;
     for (const f of feeds) await f.finish();
   } catch (err) {
+    await signed?.close().catch(() => {});
     for (const f of feeds) await f.abort();
     throw err;
   }
@@ -219,7 +237,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       files: [...writers.values()].flatMap((w) => w.writer.files),
     };
     await writeFile(join(dir, "group.json"), JSON.stringify(result) + "\n");
-    env.log.debug({ group: group.g, units: group.units.length }, "group packed");
+    env.log.debug({ group: group.g, units: group.units.length, ...(signatures ? { signatures_taken: signaturesTaken } : {}) }, "group packed");
     return result;
   };
   return { written: written() };

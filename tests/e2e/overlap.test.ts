@@ -186,6 +186,32 @@ describe("siftpack overlap", () => {
     expect(r.stderr).toContain("the manifest has no overlap figures");
   });
 
+  it("takes the MinHash dedup stage's signatures for the near-duplicate figure, and gets the figures of signing again", () => {
+    // Near copies marked, not removed, and a low threshold, so that some pairs fall in different
+    // splits (depots) and the figure is not 0.
+    const text = readFileSync(join(dir, "demo.yaml"), "utf8").replace(/- dedup: \{ method: minhash, threshold: 0\.8 \}/, "- dedup: { method: minhash, action: mark, threshold: 0.3 }");
+    expect(text).toContain("action: mark, threshold: 0.3");
+    writeFileSync(join(dir, "demo-taken.yaml"), text);
+    // A second normalize after it leaves the (already normalized) texts as they are, but the figure
+    // can no longer take the stage's signatures: it signs every text again.
+    writeFileSync(join(dir, "demo-signed.yaml"), text.replace(/^(\s*- dedup: \{ method: minhash.*\n)/m, "$1  - normalize: { form: NFKC }\n"));
+    const build = (name: string) => {
+      const r = siftpack(["run", join(dir, `demo-${name}.yaml`), "--out", join(dir, `out-${name}`), "--no-cache"], { env: { SIFTPACK_LOG: "debug" } });
+      expect(r.code, r.stderr).toBe(0);
+      const taken = r.stderr.split("\n").flatMap((l) => (l.includes('"group packed"') ? [JSON.parse(l).signatures_taken as number | undefined] : []));
+      return { taken, manifest: JSON.parse(readFileSync(join(dir, `out-${name}/manifest.json`), "utf8")) };
+    };
+    const taken = build("taken");
+    const signed = build("signed");
+    // Every kept record's signature was taken in the one, none in the other.
+    expect(taken.taken.reduce((a: number, n) => a + (n ?? 0), 0)).toBe(taken.manifest.records.kept);
+    expect(signed.taken.length).toBeGreaterThan(0);
+    expect(signed.taken.every((n) => n === undefined)).toBe(true);
+    expect(signed.manifest.records.kept).toBe(taken.manifest.records.kept);
+    expect(taken.manifest.overlap.pairs.some((p: { near_duplicate_documents: number }) => p.near_duplicate_documents > 0)).toBe(true);
+    expect(taken.manifest.overlap).toEqual(signed.manifest.overlap);
+  }, 120_000);
+
   it("follows the pipeline's overlap settings: another n, near-duplicates off, or no figures at all", () => {
     const text = readFileSync(join(dir, "demo.yaml"), "utf8");
     writeFileSync(join(dir, "demo-8.yaml"), text + "\noverlap: { ngram: 8, near_duplicates: false }\n");
