@@ -56,8 +56,15 @@ export function parseNpyHeader(bytes: Uint8Array): NpyInfo {
   return { dtype, shape, offset: start + len };
 }
 
-/** Copies 32-bit values into the little-endian bytes of `dtype` (the machine is little-endian, like every Node target). */
-export function encodeValues(values: Uint32Array, dtype: Dtype): Uint8Array {
+/**
+ * The little-endian bytes of `values` as `dtype` (the machine is little-endian, like every Node
+ * target): a view when they are held in that type already, else a converted copy.
+ */
+export function encodeValues(values: Uint32Array | Uint16Array, dtype: Dtype): Uint8Array {
+  if (values instanceof Uint16Array) {
+    if (dtype === "uint16") return new Uint8Array(values.buffer, values.byteOffset, values.byteLength);
+    values = Uint32Array.from(values);
+  }
   switch (dtype) {
     case "uint8":
       return Uint8Array.from(values);

@@ -34,7 +34,7 @@ export interface OriginLine extends SegmentOrigin {
  * The index lines of one row, in segment order. Key order is fixed here, so the bytes depend only on
  * the rows (JSON lines rather than .npy: ids and file names are strings, and a person can read it).
  */
-export function originLines(row: number, segments: Uint32Array, pieces: readonly RowPiece[]): string {
+export function originLines(row: number, segments: Uint16Array | Uint32Array, pieces: readonly RowPiece[]): string {
   let out = "";
   let start = 0;
   for (let k = 0; k < pieces.length; k++) {
@@ -59,7 +59,7 @@ export function originLines(row: number, segments: Uint32Array, pieces: readonly
  * padding (0) comes last, so "nonzero and at most `segment`" holds on the run and before it and on
  * nothing after: a binary search finds the end without reading every token's segment.
  */
-function runEnd(segments: Uint32Array, segment: number, from: number): number {
+function runEnd(segments: ArrayLike<number>, segment: number, from: number): number {
   let lo = from + 1;
   let hi = segments.length;
   while (lo < hi) {
