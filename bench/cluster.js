@@ -6,13 +6,14 @@
 // (sum over phases of the phase's longest task), the speed-up of a cluster with one node per task.
 //
 //   node bench/cluster.js [--mb 50] [--files 12] [--tasks 3] [--parallel 2] [--group-mb 256]
-import { mkdirSync, rmSync, writeFileSync, createReadStream, createWriteStream, readdirSync, readFileSync, existsSync } from "node:fs";
+import { mkdirSync, rmSync, writeFileSync, createReadStream, createWriteStream, readFileSync, existsSync } from "node:fs";
 import { join } from "node:path";
 import { spawn, spawnSync } from "node:child_process";
 import { createInterface } from "node:readline";
 import { once } from "node:events";
 import { fileURLToPath } from "node:url";
 import { makeCorpus } from "./corpus.js";
+import { sameBuild } from "./same-build.js";
 
 const root = fileURLToPath(new URL("..", import.meta.url));
 const args = process.argv.slice(2);
@@ -103,12 +104,7 @@ for (const ph of plan.phases) {
 }
 const taskSeconds = (performance.now() - t0) / 1000;
 
-// Byte for byte: every file but build-info.json (times and paths).
-const list = (dir, rel = "") =>
-  readdirSync(join(dir, rel), { withFileTypes: true }).flatMap((e) => (e.isDirectory() ? list(dir, join(rel, e.name)) : [join(rel, e.name)]));
-const a = list(join(work, "out-local")).filter((f) => f !== "build-info.json").sort();
-const b = list(join(work, "out-tasks")).filter((f) => f !== "build-info.json").sort();
-const differ = a.length !== b.length || a.some((f, i) => f !== b[i] || !readFileSync(join(work, "out-local", f)).equals(readFileSync(join(work, "out-tasks", f))));
+const differ = !sameBuild(join(work, "out-local"), join(work, "out-tasks"));
 const manifest = JSON.parse(readFileSync(join(work, "out-local/manifest.json"), "utf8"));
 
 console.log(`corpus ${mb} MB in ${files} files, ${manifest.records.read} records, ${manifest.records.kept} kept`);

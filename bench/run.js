@@ -3,12 +3,13 @@
 // workers, and peak memory at two corpus sizes. Prints a table and writes build/bench/results.json.
 //
 //   node bench/run.js [--small-mb 50] [--large-mb 200] [--skip-minhash] [--skip-cluster]
-import { readFileSync, writeFileSync, mkdirSync, rmSync, readdirSync, renameSync } from "node:fs";
+import { readFileSync, writeFileSync, mkdirSync, rmSync, renameSync } from "node:fs";
 import { join } from "node:path";
 import { spawnSync } from "node:child_process";
 import { availableParallelism } from "node:os";
 import { fileURLToPath } from "node:url";
 import { makeCorpus } from "./corpus.js";
+import { sameBuild } from "./same-build.js";
 
 const root = fileURLToPath(new URL("..", import.meta.url));
 const args = process.argv.slice(2);
@@ -144,16 +145,12 @@ writeFileSync(join(appendDir, "part-8.jsonl"), extraLines.join("\n") + "\n");
 const appendAgain = run(appendPipeline, cores, "cache");
 const appendedMb = readFileSync(join(appendDir, "part-8.jsonl")).length / 1e6;
 // The rebuild must be a clean build's bytes: set aside, the same pipeline built again without the
-// cache, compared file for file (all but build-info.json, which holds times and paths).
+// cache, compared file for file.
 const kept = join(work, "out-append-rebuilt");
 rmSync(kept, { recursive: true, force: true });
 renameSync(join(work, "out-append"), kept);
 run(appendPipeline, cores);
-const filesOf = (dir, rel = "") =>
-  readdirSync(join(dir, rel), { withFileTypes: true }).flatMap((e) => (e.isDirectory() ? filesOf(dir, join(rel, e.name)) : [join(rel, e.name)]));
-const rebuilt = filesOf(kept).filter((f) => f !== "build-info.json").sort();
-const clean = filesOf(join(work, "out-append")).filter((f) => f !== "build-info.json").sort();
-const appendSame = rebuilt.length === clean.length && rebuilt.every((f, i) => f === clean[i] && readFileSync(join(kept, f)).equals(readFileSync(join(work, "out-append", f))));
+const appendSame = sameBuild(kept, join(work, "out-append"));
 if (!appendSame) throw new Error("the rebuild after the append differs from a clean build of the same files (build/bench/out-append-rebuilt, build/bench/out-append)");
 const appendResult = { first_s: appendFirst.sec, appended_mb: appendedMb, appended_share: appendedMb / largeInputMb, rebuild_s: appendAgain.sec, share_of_first: appendAgain.sec / appendFirst.sec, steps: appendAgain.cache.steps, identical_to_clean: appendSame };
 rows.push([

@@ -6,7 +6,7 @@
 // the same values, since a signature is a function of the text and the settings alone. Each one
 // is also checked against the record: same row number, same length in UTF-8 bytes; any other
 // record is signed as before. Signing is about a third of the overlap collection's time.
-import { open, type FileHandle } from "node:fs/promises";
+import { open, stat, type FileHandle } from "node:fs/promises";
 import { jsonLines } from "../lib/json-lines.js";
 import type { PipelineConfig } from "../pipeline/config.js";
 import type { KeyedDirs } from "../stages/keyed.js";
@@ -58,6 +58,7 @@ export class UnitSignatures {
 
   /** Undefined when the unit's files are not there (no record of it reached the stage), or are not k values a row. */
   static async open(dirs: KeyedDirs, u: number, k: number): Promise<UnitSignatures | undefined> {
+    if (!(await stat(dirs.path("docs.jsonl", u)).catch(() => undefined))) return undefined;
     const fh = await open(dirs.path("sig.bin", u), "r").catch(() => undefined);
     if (!fh) return undefined;
     const size = (await fh.stat()).size;
@@ -70,7 +71,6 @@ export class UnitSignatures {
 
   /** The signature the stage made for record r (its row and UTF-8 length must match), or undefined. */
   async find(r: DocRecord): Promise<Uint32Array | undefined> {
-    const bytes = r.utf8 ? r.utf8.length : Buffer.byteLength(r.text, "utf8");
     while (this.j < this.count) {
       if (!this.doc) {
         const next = await this.docs.next();
@@ -81,7 +81,7 @@ export class UnitSignatures {
       if (doc.i > r.seq) return undefined;
       const j = this.j++;
       this.doc = undefined;
-      if (doc.i === r.seq) return doc.b === bytes ? this.row(j) : undefined;
+      if (doc.i === r.seq) return doc.b === (r.utf8 ? r.utf8.length : Buffer.byteLength(r.text, "utf8")) ? this.row(j) : undefined;
     }
     return undefined;
   }
@@ -100,8 +100,8 @@ export class UnitSignatures {
       this.window = new Uint32Array(buf.buffer, buf.byteOffset, n * k);
       this.from = j;
     }
-    // A copy: the record keeps it while the window moves on.
-    return this.window.slice((j - this.from) * k, (j - this.from + 1) * k);
+    // A view: every window is memory of its own, never overwritten, so it stays valid as the window moves on.
+    return this.window.subarray((j - this.from) * k, (j - this.from + 1) * k);
   }
 
   async close(): Promise<void> {

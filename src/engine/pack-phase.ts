@@ -182,7 +182,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         // A mixture's part copy: the record's first tokens, as its last copy (README, Mixtures); a
         // conversation's is cut at turn edges where they keep its pieces within a block.
         if (part > 0) packer.add(r.tokens!.subarray(0, part), { ...origin, ...(n > 0 ? { copy: n } : {}), part }, fit?.edges && longestUncut(r.chat!, part) <= pack.length ? { ...fit.edges, at: fit.edges.at.filter((e) => e < part) } : undefined);
-        const signature = await signed?.find(r);
+        const signature = signed && (await signed.find(r));
         if (signature) {
           giveSignature(r, signature);
           signaturesTaken++;

@@ -244,7 +244,6 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
       for (const a of analysisFiles()) analyses.push({ ...a, collectors: await a.steps.collectors(a.ctx, { ...stepContext(env, count), threads }) });
       // A group's files are written while the next group is packed; one group at a time waits to be written.
       let writing: Promise<unknown> = Promise.resolve();
-      let next: Promise<unknown> = Promise.resolve();
       try {
         for (const g of share) {
           const dir = groupDir(work, phase.name, g);
@@ -256,14 +255,14 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
             async () => [...(await filesUnder(dir)), ...(await Promise.all(analyses.map((a) => collectedFiles(a.dirs.collect, g)))).flat()],
             () => readBytes(groups[g].units),
           );
-          next = end;
-          await writing;
+          const before = writing;
           writing = end;
+          await before;
         }
         await writing;
       } catch (err) {
         // Nothing is left writing when the task fails.
-        await Promise.allSettled([writing, next]);
+        await writing.catch(() => {});
         throw err;
       } finally {
         for (const a of analyses) await a.collectors.close();
