@@ -259,11 +259,17 @@ interface Setup {
   ngrams: Float64Array;
 }
 
+/** f(g) for every unit (piece) g, started together: a step reads one small file or more of each, and waits on them at once. */
+function perUnit<T>(files: KeyedFiles, f: (g: number) => Promise<T>): Promise<T[]> {
+  return Promise.all(Array.from({ length: files.units }, (_, g) => f(g)));
+}
+
 async function loadSetup(files: KeyedFiles): Promise<Setup> {
   const metas: (GroupMeta | undefined)[] = [];
   const names = new Set<string>();
+  const raws = await perUnit(files, (g) => files.read("meta.json", g));
   for (let g = 0; g < files.units; g++) {
-    const raw = (await files.read("meta.json", g)).toString("utf8");
+    const raw = raws[g].toString("utf8");
     const m = raw ? (JSON.parse(raw) as GroupMeta) : undefined;
     metas.push(m);
     for (const s of m?.splits ?? []) names.add(s.name);
@@ -371,12 +377,9 @@ function sortedBySpill(map: HashMap64, spills: number): Uint32Array[] {
 /** N-gram and text figures of partition p into `counts` and `sharing`; returns train's distinct keys in p. */
 async function ngramPartition(files: KeyedFiles, p: number, s: Setup, tmpDir: string, counts: PartitionCounts, sharing: Grow<Uint32Array>[]): Promise<number> {
   const H = s.held.length;
-  const held: Buffer[] = [];
+  const held = await perUnit(files, (g) => files.read("ng-held", g, p));
   let n = 0;
-  for (let g = 0; g < files.units; g++) {
-    held.push(await files.read("ng-held", g, p));
-    n += held[g].byteLength / 16;
-  }
+  for (const raw of held) n += raw.byteLength / 16;
   // Held-out keys of p: distinct keys, and per key which held-out splits have it as an n-gram or as a text.
   const W = Math.max(1, Math.ceil(H / 32));
   const map = new HashMap64(Math.max(16, n));
@@ -406,8 +409,7 @@ async function ngramPartition(files: KeyedFiles, p: number, s: Setup, tmpDir: st
   // Train's keys of p, counted; the held-out keys found among them as the counter sorts them (a
   // merge of two sorted lists: one hash lookup per train key would miss the caches at every key).
   const inTrain = new Uint8Array(distinct);
-  const sizes: number[] = [];
-  for (let g = 0; g < files.units; g++) sizes.push(await files.size("ng-train", g, p));
+  const sizes = await perUnit(files, (g) => files.size("ng-train", g, p));
   const counter = new DistinctKeys(sizes.reduce((a, b) => a + b, 0) / 8, tmpDir, overlapLimits.distinctBudget);
   let trainKeys: number;
   try {
@@ -462,8 +464,9 @@ async function nearPartition(files: KeyedFiles, p: number, s: Setup, nd: NearDup
   const eSplit = uint32s();
   const eDoc: number[] = [];
   const buckets = new Map<number, number[]>();
+  const bandsHeld = await perUnit(files, (g) => files.read("bands-held", g, p));
   for (let g = 0; g < files.units; g++) {
-    const w = words(await files.read("bands-held", g, p));
+    const w = words(bandsHeld[g]);
     for (let x = 0; x < w.length; x += 5) {
       const e = eDoc.length;
       const h = s.heldOf[g][w[x + 3]];
@@ -500,8 +503,9 @@ async function nearPartition(files: KeyedFiles, p: number, s: Setup, nd: NearDup
   };
   try {
     const x = new Uint32Array(rowWords);
+    const trainSizes = await perUnit(files, (g) => files.size("bands-train", g, p));
     for (let g = 0; g < files.units; g++)
-      eachChunk(files.path("bands-train", g, p), await files.size("bands-train", g, p), 3, (w) => {
+      eachChunk(files.path("bands-train", g, p), trainSizes[g], 3, (w) => {
         for (let i = 0; i < w.length; i += 3) {
           const list = buckets.get(w[i + 1] * TWO32 + w[i]);
           if (!list) continue;

@@ -39,10 +39,16 @@ export function addCounts(into: CacheReport, from: CacheReport, sign = 1): void 
 export async function cacheSize(dir: string): Promise<{ entries: number; bytes: number }> {
   let entries = 0;
   let bytes = 0;
+  // Entries are often second names of one file (a piece of a group's collection and the group
+  // itself, linked from the same work file): its bytes are on disk once, and counted once.
+  const seen = new Set<string>();
   for (const name of await readdir(dir).catch(() => [] as string[])) {
     const st = await stat(join(dir, name)).catch(() => undefined);
     if (!st?.isFile()) continue;
     entries++;
+    const inode = `${st.dev}:${st.ino}`;
+    if (st.nlink > 1 && seen.has(inode)) continue;
+    if (st.nlink > 1) seen.add(inode);
     bytes += st.size;
   }
   return { entries, bytes };

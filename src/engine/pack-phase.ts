@@ -1,8 +1,9 @@
 // The pack phase, one task per share of packing groups: every unit's fates merged in row order into
 // the group's ledger (one gzip member) and quarantine lines, the kept records packed per split into
 // blocks (best-fit looks ahead within the group; rows shuffled within the group), the group's shards
-// written, and the analyses' collectors fed. Everything lands in <work>/pack/groups/<g>/; assemble
-// joins the groups without reading a token.
+// written, and the analyses' collectors fed, one piece (a unit's records) at a time, unless the
+// cache keeps the piece. Everything lands in <work>/pack/groups/<g>/ (the collected files under
+// <work>/pack/analysis-<key>/); assemble joins the groups without reading a token.
 import { mkdir, writeFile } from "node:fs/promises";
 import { join } from "node:path";
 import { createPacker, type Packer } from "../stages/pack.js";
@@ -35,10 +36,10 @@ export interface GroupResult {
 
 export const groupDir = (work: string, phase: string, g: number) => join(work, phase, "groups", String(g).padStart(5, "0"));
 
-/** The analyses' files: collected per group under the pack phase, joined per partition in the analysis phase. */
-export function analysisDirs(env: TaskEnv, pack: string, analysis: string, key: string, groups: number): KeyedDirs {
+/** The analyses' files: collected per piece (collectPieces) under the pack phase, joined per partition in the analysis phase. */
+export function analysisDirs(env: TaskEnv, pack: string, analysis: string, key: string, pieces: number): KeyedDirs {
   const work = env.plan.workDir;
-  return new KeyedDirs(join(work, pack, `analysis-${key}`), join(work, analysis, key), undefined, groups, env.plan.tasks);
+  return new KeyedDirs(join(work, pack, `analysis-${key}`), join(work, analysis, key), undefined, pieces, env.plan.tasks);
 }
 
 type Fate = { i: number; bad?: QuarantineEntry; drop?: { r: DocRecord; reason: string; detail?: Record<string, unknown> } };
@@ -50,6 +51,12 @@ export interface PackGroupOptions {
   analyses: { steps: AnalysisSteps; dirs: KeyedDirs; collectors: Collectors }[];
   /** The keyed stage index of the ids check, when the plan has one. */
   ids?: number;
+  /**
+   * The group's pieces of the analyses' collection (collectPieces): the first one's number, and
+   * their keeping in the cache. `restore` links a piece's files when it is kept (true) and the
+   * unit's records then go to no collector; `save` keeps a piece just collected.
+   */
+  pieces: { first: number; restore(u: number, piece: number): Promise<boolean>; save(u: number, piece: number): Promise<void> };
 }
 
 /**
@@ -103,8 +110,9 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
   const signing = o.analyses.length > 0 ? signingStage(config) : undefined;
   let signaturesTaken = 0;
   const signatures = signing === undefined ? undefined : { dirs: keyedDirs(env, signing), k: (config.stages[signing].options as MinhashOptions).permutations };
-  const feeds: Awaited<ReturnType<typeof collectUnit>>[] = [];
-  for (const a of o.analyses) feeds.push(await collectUnit(a.dirs, a.collectors, group.g));
+  // The collectors of the unit being read: none when its piece was kept in the cache.
+  let feeds: Awaited<ReturnType<typeof collectUnit>>[] = [];
+  let piecesReused = 0;
   const k = env.phase.index;
   // A share of a large file's rows: the rest of its units' rows are other groups'.
   const span = group.rows;
@@ -112,11 +120,14 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
   // The current unit's signatures (an open file), closed before the next unit's are opened.
   let signed: UnitSignatures | undefined;
   try {
-    for (const u of group.units) {
+    for (const [j, u] of group.units.entries()) {
       const fix = unitFixes(env)[u];
       const repeated = idsDirs ? await idsDirs.decisions(u) : undefined;
-      await signed?.close();
-      signed = signatures ? await UnitSignatures.open(signatures.dirs, u, signatures.k) : undefined;
+      const piece = o.pieces.first + j;
+      const collect = o.analyses.length > 0 && !(await o.pieces.restore(u, piece));
+      if (o.analyses.length > 0 && !collect) piecesReused++;
+      for (const a of collect ? o.analyses : []) feeds.push(await collectUnit(a.dirs, a.collectors, piece));
+      signed = collect && signatures ? await UnitSignatures.open(signatures.dirs, u, signatures.k) : undefined;
       const fates: Fate[] = [];
       let truncated: TruncatedFile | undefined;
       for await (const e of readEvents(unitsFile(work, "read", u), { records: false })) {
@@ -139,7 +150,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       // Drops made while reading (decisions applied now), in row order as the records come.
       const late: Fate[] = [];
       const ctx: StageContext = { seed: config.seed, log: env.log, workDir: dir, addOutputFile: () => {}, count: o.count, drop: (r, reason, detail) => late.push({ i: r.seq, drop: { r, reason, detail } }) };
-      const records = recordsBefore(env, k, u, ctx, { text: textUse(o.analyses.map((a) => a.steps.usesText)), ...(span ? { rows: span } : {}) });
+      const records = recordsBefore(env, k, u, ctx, { text: collect ? textUse(o.analyses.map((a) => a.steps.usesText)) : false, ...(span ? { rows: span } : {}) });
       const emit = async (f: Fate | { i: number; rec: DocRecord }) => {
         if ("rec" in f || f.drop) {
           const r = "rec" in f ? f.rec : f.drop!.r;
@@ -205,10 +216,12 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
         await ledger.flush();
         env.log.warn({ source: truncated.source, file: truncated.file, rows_read: truncated.rows_read, rows_lost: truncated.rows_lost, bytes_read: truncated.bytes_read, size: truncated.size }, `source "${truncated.source}": ${truncated.file} is truncated (${truncated.error}) after ${truncated.rows_read} rows; built from what could be read (accept_truncated)`);
       }
+      await signed?.close();
+      signed = undefined;
+      for (const f of feeds) await f.finish();
+      feeds = [];
+      if (collect) await o.pieces.save(u, piece);
     }
-    await signed?.close();
-    signed = undefined;
-    for (const f of feeds) await f.finish();
   } catch (err) {
     await signed?.close().catch(() => {});
     for (const f of feeds) await f.abort();
@@ -237,7 +250,7 @@ export async function packGroup(env: TaskEnv, group: PackGroup, o: PackGroupOpti
       files: [...writers.values()].flatMap((w) => w.writer.files),
     };
     await writeFile(join(dir, "group.json"), JSON.stringify(result) + "\n");
-    env.log.debug({ group: group.g, units: group.units.length, ...(signatures ? { signatures_taken: signaturesTaken } : {}) }, "group packed");
+    env.log.debug({ group: group.g, units: group.units.length, ...(o.analyses.length > 0 ? { pieces_reused: piecesReused } : {}), ...(signatures ? { signatures_taken: signaturesTaken } : {}) }, "group packed");
     return result;
   };
   return { written: written() };

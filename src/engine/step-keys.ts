@@ -112,8 +112,20 @@ export async function packKey(env: TaskEnv, group: PackGroup, count: StageContex
     config: { ...p.config, cluster: null },
     stages: p.config.stages.map((e) => entryIdentity(e, p.baseDir)),
     analyses: plan.analyses.map((a) => a.key),
+    // The analyses' files are named by piece (collectPieces), no longer by group: entries of groups kept before are not taken.
+    analysis_files: "per piece",
     mixture: mixture ?? null,
   });
+}
+
+/**
+ * The key of a piece of the analyses' collection (collectPieces): unit u's records as `group` packs
+ * them. What the collectors see is what packing keeps of the unit, so the key is that of a group of
+ * the unit alone (with the group's share of rows), plus the piece's number, which its files' names carry.
+ */
+export async function pieceKey(env: TaskEnv, group: PackGroup, u: number, piece: number, count: StageContext["count"]): Promise<string | undefined> {
+  const alone = await packKey(env, { g: -1, units: [u], bytes: 0, ...(group.rows ? { rows: group.rows } : {}) }, count);
+  return alone === undefined ? undefined : BuildCache.key({ step: "collect", piece, alone });
 }
 
 /** Paths that exist, of those given. */

@@ -36,9 +36,10 @@ export class StepMemo {
 
   /**
    * Links the step's files into the work directory and returns what it reported, or undefined when
-   * there is no entry (or the cache is off, or the entry is stale).
+   * there is no entry (or the cache is off, or the entry is stale). `counted` false: a part of a
+   * step (a piece of a group's collection), left out of the report's steps.
    */
-  async restore<M>(key: string): Promise<M | undefined> {
+  async restore<M>(key: string, counted = true): Promise<M | undefined> {
     const at = await this.cache.lookup("step", key, ".json");
     if (!at) return undefined;
     let index: Index<M>;
@@ -56,12 +57,12 @@ export class StepMemo {
     for (const [n, f] of index.files.entries()) await linkAtomic(blobs[n], join(this.work, f.path));
     this.cache.use(blobs.map((b) => relative(this.cache.dir, b)));
     this.cache.use(index.used);
-    this.cache.report.steps.reused++;
+    if (counted) this.cache.report.steps.reused++;
     return index.meta;
   }
 
   /** Keeps the step's files (absolute paths under the work directory) and report under `key`. */
-  async save<M>(key: string, files: string[], meta: M, used: string[]): Promise<void> {
+  async save<M>(key: string, files: string[], meta: M, used: string[], counted = true): Promise<void> {
     const index: Index<M> = { files: [], meta, used };
     for (const [n, file] of files.entries()) {
       const pending = this.cache.pending("step", key, `.${n}`);
@@ -73,7 +74,7 @@ export class StepMemo {
     const list = this.cache.pending("step", key, ".json");
     await writeAtomic(list.tmp, JSON.stringify(index));
     await list.commit();
-    this.cache.report.steps.computed++;
+    if (counted) this.cache.report.steps.computed++;
   }
 
   private async stale(key: string, why: string): Promise<undefined> {

@@ -22,7 +22,7 @@ import { assemblePhase } from "./assemble.js";
 import { PhaseMeter, type ProgressListener } from "./progress.js";
 import { packGroup, analysisDirs, groupDir, type PackGroupOptions } from "./pack-phase.js";
 import { StepMemo } from "./step-memo.js";
-import { collectedFiles, filesUnder, packKey, passFiles, passKey, rereadFiles, rereadKey } from "./step-keys.js";
+import { collectedFiles, filesUnder, packKey, passFiles, pieceKey, passKey, rereadFiles, rereadKey } from "./step-keys.js";
 import { TallyWriter, talliesHere } from "./mixture-tally.js";
 import { IDS_CHECK } from "./plan.js";
 import { sourcesToCheck, uniqueIdsForm } from "./unique-ids.js";
@@ -30,7 +30,7 @@ import { outputSettings } from "../stages/output-settings.js";
 import { readEvents } from "../cache/record-events.js";
 import { analysisForm } from "../analysis/registry.js";
 import type { DocRecord } from "../types.js";
-import { keyedDirs, materializes, packGroups, unitBytes, type PackGroup, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
+import { collectPieces, keyedDirs, materializes, packGroups, unitBytes, type PackGroup, planKey, recordsBefore, sourceOf, stepContext, summaryFile, unitsFile, unitsOf, UnitOutput, type TaskEnv, type Unit } from "./unit-io.js";
 import { clearTemporaries, logPath, markDone, markFailed, markStarted, phaseDir, requireDone, writeAtomic, type TaskDone } from "./workdir.js";
 
 export interface TaskOptions {
@@ -114,9 +114,10 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
   const bytesTotal = opts.bytesTotal ?? (await phaseBytes(plan, units, groups, k, share));
   const meter = new PhaseMeter({ phase: phase.name, index: k, phases: plan.phases.length, tasks: 1, bytesTotal }, [], opts.onProgress);
   const env: TaskEnv = { p, plan, key, units, phase, index, done, log, threads, meter };
-  // The analyses' files: collected per group by the pack phase, joined per partition by the analysis phase.
+  // The analyses' files: collected per piece (a unit's records in a group) by the pack phase, joined per partition by the analysis phase.
+  const pieces = collectPieces(groups);
   const analysisFiles = () =>
-    plan.analyses.map((steps) => ({ steps, ctx: { config: p.config, baseDir: p.baseDir }, dirs: analysisDirs(env, packPhaseOf(plan), analysisPhaseOf(plan), steps.key, groups.length) }));
+    plan.analyses.map((steps) => ({ steps, ctx: { config: p.config, baseDir: p.baseDir }, dirs: analysisDirs(env, packPhaseOf(plan), analysisPhaseOf(plan), steps.key, pieces.count) }));
   await markStarted(work, phase.name, index);
   // A pack task removes each of its groups' directories before packing it instead.
   if (phase.does.kind !== "pack") await clearTemporaries(phaseDir(work, phase.name), phase.tasks === 1 ? undefined : share);
@@ -242,6 +243,26 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
     } else if (does.kind === "pack") {
       const analyses: PackGroupOptions["analyses"] = [];
       for (const a of analysisFiles()) analyses.push({ ...a, collectors: await a.steps.collectors(a.ctx, { ...stepContext(env, count), threads }) });
+      const pieceFiles = async (piece: number) => (await Promise.all(analyses.map((a) => collectedFiles(a.dirs.collect, piece)))).flat();
+      // A group's pieces kept in the cache on their own, so a group packed again collects only the units that changed.
+      const piecesOf = (g: number): PackGroupOptions["pieces"] => {
+        const keys = new Map<number, string | undefined>();
+        return {
+          first: pieces.first[g],
+          async restore(u, piece) {
+            const key = await pieceKey(env, groups[g], u, piece, count);
+            keys.set(piece, key);
+            if (key === undefined) return false;
+            // Nothing of an earlier attempt stays beside what the entry links (it may have fewer files).
+            for (const f of await pieceFiles(piece)) await rm(f, { force: true });
+            return (await memo.restore(key, false)) !== undefined;
+          },
+          async save(_u, piece) {
+            const key = keys.get(piece);
+            if (key !== undefined) await memo.save(key, await pieceFiles(piece), {}, [], false);
+          },
+        };
+      };
       // A group's files are written while the next group is packed; one group at a time waits to be written.
       let writing: Promise<unknown> = Promise.resolve();
       try {
@@ -251,8 +272,8 @@ export async function runTask(p: LoadedPipeline, phaseName: string, index: numbe
           await rm(dir, { recursive: true, force: true });
           const { end } = await begin(
             await packKey(env, groups[g], count),
-            () => packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined }),
-            async () => [...(await filesUnder(dir)), ...(await Promise.all(analyses.map((a) => collectedFiles(a.dirs.collect, g)))).flat()],
+            () => packGroup(env, groups[g], { out, count, analyses, ids: plan.keyed.has(IDS_CHECK) ? IDS_CHECK : undefined, pieces: piecesOf(g) }),
+            async () => [...(await filesUnder(dir)), ...(await Promise.all(groups[g].units.map((_, j) => pieceFiles(pieces.first[g] + j)))).flat()],
             () => readBytes(groups[g].units),
           );
           const before = writing;

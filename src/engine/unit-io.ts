@@ -355,6 +355,23 @@ export function packGroups(units: Unit[], groupBytes: number, rowsOf?: (u: numbe
   return groups;
 }
 
+/**
+ * The analyses' collection is kept per piece: one unit's records as one group packs them (a group's
+ * units in order; a file cut into several groups lies in one piece per group). A piece is collected
+ * once and reused while what packing keeps of its unit is the same, even when its group is packed
+ * again: a new file joining the last group, or a decision changed in another unit of the group.
+ * Piece numbers run group by group, so `first[g] + j` is the piece of group g's j-th unit.
+ */
+export function collectPieces(groups: PackGroup[]): { count: number; first: number[] } {
+  const first: number[] = [];
+  let count = 0;
+  for (const g of groups) {
+    first.push(count);
+    count += g.units.length;
+  }
+  return { count, first };
+}
+
 /** One large file's groups: n equal shares of its rows, each with the units its rows lie in. */
 function rowGroups(file: Unit[], n: number, rowsOf: (u: number) => number, first: number): PackGroup[] {
   const starts: number[] = [];

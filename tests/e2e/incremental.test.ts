@@ -56,6 +56,18 @@ function newTickets(n: number, echo?: string): Buffer {
   return gzipSync(lines.join("\n") + "\n");
 }
 
+/** The files the cache keeps for steps: each entry's files (step-<key>.<n>), with their paths in the work directory. */
+function keptFiles(cache: string): { key: string; blob: string; path: string; size: number }[] {
+  const out = [];
+  for (const n of readdirSync(cache)) {
+    const m = /^step-([0-9a-f]{16})\.json$/.exec(n);
+    if (!m) continue;
+    const index = JSON.parse(readFileSync(join(cache, n), "utf8")) as { files: { path: string; size: number }[] };
+    for (const [i, f] of index.files.entries()) out.push({ key: m[1], blob: `step-${m[1]}.${i}`, path: f.path, size: f.size });
+  }
+  return out;
+}
+
 describe("a rebuild reuses what a change does not reach, and builds the bytes of a clean build", () => {
   it("after files are added, changed and removed, and after a setting changes", () => {
     const { dir, pipeline, run, clean, built } = setup();
@@ -128,10 +140,9 @@ describe("a rebuild reuses what a change does not reach, and builds the bytes of
     const before = built();
     const cache = join(dir, "build/.demo.cache");
     // The largest kept step file (a packing group's shard, or a unit's records): same size, other bytes.
-    const blob = readdirSync(cache)
-      .filter((n) => /^step-[0-9a-f]{16}\.\d+$/.test(n))
-      .map((n) => ({ n, size: statSync(join(cache, n)).size }))
-      .sort((a, b) => b.size - a.size)[0].n;
+    const blob = keptFiles(cache)
+      .filter((f) => !f.path.includes("/analysis-"))
+      .sort((a, b) => b.size - a.size)[0].blob;
     const bytes = readFileSync(join(cache, blob));
     bytes[bytes.length >> 1] ^= 0xff;
     // A new file under the entry's name: the build's own hard link to the old one keeps its bytes.
@@ -142,6 +153,33 @@ describe("a rebuild reuses what a change does not reach, and builds the bytes of
     expect(r.steps.computed).toBeGreaterThan(0);
     expect(built()).toEqual(before);
     // Made again: the next build reuses every step.
+    expect(run("--force").steps.computed).toBe(0);
+  });
+
+  it("a piece of the analyses' collection edited behind siftpack's back is found stale when its group is packed again", () => {
+    const { dir, run, built } = setup();
+    run();
+    const before = built();
+    const cache = join(dir, "build/.demo.cache");
+    const kept = keptFiles(cache);
+    // A piece's entry holds collected files only; a group's entry holds its shards (and its pieces' files, under second names).
+    const entries = new Map<string, typeof kept>();
+    for (const f of kept) entries.set(f.key, [...(entries.get(f.key) ?? []), f]);
+    const pieces = [...entries.values()].filter((fs) => fs.every((f) => f.path.includes("/analysis-")));
+    const groups = [...entries.values()].filter((fs) => fs.some((f) => f.path.includes("/groups/")));
+    expect(pieces.length).toBeGreaterThan(0);
+    expect(groups.length).toBeGreaterThan(0);
+    const blob = pieces.flat().sort((a, b) => b.size - a.size)[0].blob;
+    const bytes = readFileSync(join(cache, blob));
+    bytes[bytes.length >> 1] ^= 0xff;
+    rmSync(join(cache, blob));
+    writeFileSync(join(cache, blob), bytes);
+    // Every group packed again (their entries gone), so every piece is looked up.
+    for (const fs of groups) rmSync(join(cache, `step-${fs[0].key}.json`));
+    const r = run("--force");
+    expect(r.stderr).toMatch(new RegExp(`cache entry ${blob.replace(/\.\d+$/, "")} is stale \\(.* changed since it was kept\\)`));
+    expect(r.steps.computed).toBe(groups.length);
+    expect(built()).toEqual(before);
     expect(run("--force").steps.computed).toBe(0);
   });
 });
