@@ -169,15 +169,20 @@ class Signatures {
   }
 }
 
-/** Every document's entry in docs.jsonl, numbered across units. */
-async function loadDocs(files: KeyedFiles, total: number): Promise<{ docs: Doc[]; unitOf: Int32Array }> {
+/**
+ * Every document's entry in docs.jsonl, numbered across units; with `wanted`, only the entries of
+ * the documents it marks are parsed (the others stay undefined): the clusters step needs a few
+ * percent of them, and parsing every line was most of its time.
+ */
+async function loadDocs(files: KeyedFiles, total: number, wanted?: Uint8Array): Promise<{ docs: Doc[]; unitOf: Int32Array }> {
   const docs: Doc[] = new Array(total);
   const unitOf = new Int32Array(total);
   let d = 0;
   for (let u = 0; u < files.units; u++) {
     for await (const line of files.lines("docs.jsonl", u)) {
       unitOf[d] = u;
-      docs[d++] = JSON.parse(line) as Doc;
+      if (!wanted || wanted[d] === 1) docs[d] = JSON.parse(line) as Doc;
+      d++;
     }
   }
   return { docs, unitOf };
@@ -256,10 +261,6 @@ export const minhashForm: KeyedForm<MinhashOptions> = {
   async resolve(o, files, out, ctx) {
     const k = o.permutations;
     const { offset, total: n } = await docOffsets(files, k);
-    const { docs, unitOf } = await loadDocs(files, n);
-    const list = o.sources ?? [];
-    const length = Int32Array.from(docs, (d) => d.len);
-    const rank = Int32Array.from(docs, (d) => (list.indexOf(d.s) < 0 ? list.length : list.indexOf(d.s)));
     const uf = new UnionFind(n);
     const stats = { comparisons: 0, pairs: 0, spilled_bucket_runs: 0 };
     for (let p = 0; p < files.partitions; p++) {
@@ -269,6 +270,15 @@ export const minhashForm: KeyedForm<MinhashOptions> = {
       const w = new Uint32Array(raw.buffer, raw.byteOffset, raw.byteLength / 4);
       for (let x = 0; x < w.length; x += 2) uf.union(w[x], w[x + 1]);
     }
+    // Only the members of clusters are looked at below (a document alone keeps itself and is not reported).
+    const size = new Int32Array(n);
+    for (let d = 0; d < n; d++) size[uf.find(d)]++;
+    const member = new Uint8Array(n);
+    for (let d = 0; d < n; d++) member[d] = size[uf.find(d)] > 1 ? 1 : 0;
+    const { docs, unitOf } = await loadDocs(files, n, member);
+    const list = o.sources ?? [];
+    const length = Int32Array.from(docs, (d) => d?.len ?? 0);
+    const rank = Int32Array.from(docs, (d) => (d === undefined || list.indexOf(d.s) < 0 ? list.length : list.indexOf(d.s)));
     const kept = chooseKept(uf, o.keep, length, rank);
     const sigs = new Signatures(files, offset, k);
     const exact = o.confirm === "exact" ? exactJaccard(o, ctx.seed, files, docs, unitOf) : undefined;
