@@ -20,13 +20,23 @@ interface Pending {
   records: DocRecord[];
   /** Ids found in the cache, by position; undefined where the pool computes them. */
   cached: (Uint32Array | undefined)[];
+  /** XXH64 of each record's text, by position, when the cache is used (looked up with it, written with it). */
+  hashes: bigint[];
   /** Frames of the records the pool computes, and how many. */
   misses: FrameWriter;
   missed: number;
 }
 
 const EMPTY: BatchOut = { frames: new Uint8Array(0), counts: {}, rows: 0, records: 0 };
-const pending = (): Pending => ({ records: [], cached: [], misses: new FrameWriter(), missed: 0 });
+const pending = (): Pending => ({ records: [], cached: [], hashes: [], misses: new FrameWriter(), missed: 0 });
+
+/**
+ * Ids held back while every record of a file so far came from its cache entry: if the whole file
+ * does, the entry already holds them and is not written again (a rebuild that passes a unit again
+ * only because a decision dropped some of its records). Past this many ids the entry is written as
+ * it goes, so what is held stays bounded.
+ */
+const HOLD_IDS = 1 << 23;
 
 /**
  * A stage of form `record` that `encodes` (sets tokens from the text alone), run on the pool.
@@ -39,9 +49,15 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
   return async function* tokenize(input, ctx) {
     // Lookup side: the cache entry of the file now being batched.
     let reading: { id: string; reader?: TokenStoreReader } | undefined;
-    // Emitting side: the entry being written for the file now being emitted.
+    // Emitting side: the entry being written for the file now being emitted; none while every record so far came from the cache (`held`).
     let writing: { id: string; writer: TokenStoreWriter; tmp: string; commit: () => Promise<void> } | undefined;
+    let emitting: string | undefined;
+    let held: { line: number; hash: bigint; ids: Uint32Array }[] = [];
+    let heldIds = 0;
     const closeWriting = async (complete: boolean) => {
+      held = [];
+      heldIds = 0;
+      emitting = undefined;
       if (!writing) return;
       const w = writing;
       writing = undefined;
@@ -69,7 +85,9 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
             else cache.report.tokens.computed++;
             reading = { id, reader: found ? new TokenStoreReader(found) : undefined };
           }
-          hit = reading.reader?.find(r.origin.line, xxh64String(r.text));
+          const hash = xxh64String(r.text);
+          p.hashes[p.records.length] = hash;
+          hit = reading.reader?.find(r.origin.line, hash);
           if (hit) cache.report.tokens.records_reused++;
           else cache.report.tokens.records_computed++;
         }
@@ -109,13 +127,25 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
           }
           if (cache && !r.turns) {
             const id = unitId(r.source, r.origin.file);
-            if (writing?.id !== id) {
+            if (emitting !== id) {
               await closeWriting(true);
-              const out = cache.pending("tokens", keyOf(r), ".bin");
-              writing = { id, writer: new TokenStoreWriter(out.tmp), tmp: out.tmp, commit: out.commit };
+              emitting = id;
             }
-            writing.writer.add(r.origin.line, xxh64String(r.text), tokens);
-            if (writing.writer.backlog > 0) await writing.writer.settle();
+            const hash = p.hashes[i];
+            if (!writing && p.cached[i] && heldIds + tokens.length <= HOLD_IDS) {
+              held.push({ line: r.origin.line, hash, ids: tokens });
+              heldIds += tokens.length;
+            } else {
+              if (!writing) {
+                const out = cache.pending("tokens", keyOf(r), ".bin");
+                writing = { id, writer: new TokenStoreWriter(out.tmp), tmp: out.tmp, commit: out.commit };
+                for (const h of held) writing.writer.add(h.line, h.hash, h.ids);
+                held = [];
+                heldIds = 0;
+              }
+              writing.writer.add(r.origin.line, hash, tokens);
+              if (writing.writer.backlog > 0) await writing.writer.settle();
+            }
           }
           r.tokens = tokens;
           if (chat) r.chat = chat;

@@ -182,4 +182,33 @@ describe("a rebuild reuses what a change does not reach, and builds the bytes of
     expect(built()).toEqual(before);
     expect(run("--force").steps.computed).toBe(0);
   });
+  it("a unit passed again with every record's ids from its token entry leaves that entry as it was", () => {
+    const { dir, pipeline, clean, built } = setup();
+    const json = () => {
+      const r = siftpack(["run", pipeline, "--json", "--quiet", "--workers", "2"], { env });
+      expect(r.code, r.stderr).toBe(0);
+      return JSON.parse(r.stdout).cache.tokens as { reused: number; computed: number; records_reused: number; records_computed: number };
+    };
+    json();
+    const cache = join(dir, "build/.demo.cache");
+    const entries = () => new Map(readdirSync(cache).filter((n) => /^tokens-[0-9a-f]{16}\.bin$/.test(n)).map((n) => [n, statSync(join(cache, n))] as const));
+    const before = entries();
+    // An echo of an earlier ticket changes the dedup decisions about the earlier file: its unit passes again, its texts unchanged.
+    const earlier = JSON.parse(gunzipSync(readFileSync(join(dir, "sample-data/tickets/tickets-2026.jsonl.gz"))).toString("utf8").split("\n")[4]).body as string;
+    writeFileSync(join(dir, "sample-data/tickets/tickets-2027.jsonl.gz"), newTickets(30, earlier));
+    const tokens = json();
+    // Entries of earlier files were looked up again (their units passed again) and all their records found.
+    expect(tokens.reused).toBeGreaterThan(0);
+    expect(tokens.records_reused).toBeGreaterThan(0);
+    const after = entries();
+    let kept = 0;
+    for (const [n, st] of before) {
+      const now = after.get(n);
+      if (!now) continue;
+      expect({ n, ino: now.ino, mtime: now.mtimeMs }).toEqual({ n, ino: st.ino, mtime: st.mtimeMs });
+      kept++;
+    }
+    expect(kept).toBeGreaterThan(0);
+    expect(built()).toEqual(clean());
+  });
 });
