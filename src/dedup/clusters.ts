@@ -40,19 +40,24 @@ export interface Kept {
   duplicates: number;
 }
 
+/** The number of documents in each set, at its root (0 elsewhere). */
+export function clusterSizes(uf: UnionFind): Int32Array {
+  const size = new Int32Array(uf.parent.length);
+  for (let d = 0; d < size.length; d++) size[uf.find(d)]++;
+  return size;
+}
+
 /**
- * Picks one document per set: the first in input order (`first`), the longest text with ties to the
+ * Picks one document per set (`size`: clusterSizes, when the caller has it already): the first in input order (`first`), the longest text with ties to the
  * first (`longest`), or the one whose source comes earliest in the priority list, ties to the first
  * (`source-priority`; `rank[d]` is that position, sources not listed rank last). Every rule ends in
  * input order, so the choice is deterministic.
  */
-export function chooseKept(uf: UnionFind, rule: KeepRule, length: Int32Array, rank: Int32Array): Kept {
+export function chooseKept(uf: UnionFind, rule: KeepRule, length: Int32Array, rank: Int32Array, size: Int32Array = clusterSizes(uf)): Kept {
   const n = uf.parent.length;
   const best = new Int32Array(n).fill(-1);
-  const size = new Int32Array(n);
   for (let d = 0; d < n; d++) {
     const r = uf.find(d);
-    size[r]++;
     const b = best[r];
     if (b < 0) best[r] = d;
     else if (rule === "longest" ? length[d] > length[b] : rule === "source-priority" ? rank[d] < rank[b] : false) best[r] = d;

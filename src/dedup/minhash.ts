@@ -10,7 +10,7 @@
 // Per partition: buckets.bin, entries (band key, band, unit, record j of the unit) as 4 × uint32,
 // partition = band key mod partitions. A partition shares edges.bin, confirmed pairs as uint32 (a, b).
 import { BandBuckets, MAX_DOCUMENTS } from "./buckets.js";
-import { chooseKept, joinBucket } from "./clusters.js";
+import { chooseKept, clusterSizes, joinBucket } from "./clusters.js";
 import { writeClusters } from "./cluster-file.js";
 import { resolveBands } from "./lsh-params.js";
 import type { MinhashOptions } from "./options.js";
@@ -96,9 +96,10 @@ class UnitSigner implements UnitCollector {
     for (let i = 0; i < res.count; i++) {
       const r = docs[i];
       // b: the text's UTF-8 length, by which the overlap figures check a signature before they take it (src/analysis/dedup-signatures.ts).
-      const doc: Doc = { i: r.seq, id: r.id, s: r.source, len: r.text.length, b: Buffer.byteLength(r.text, "utf8"), short: res.short[i] };
-      if (this.keepTexts) {
-        const bytes = Buffer.from(r.text, "utf8");
+      // With confirm: exact the text's bytes are kept too, and encoded once for both.
+      const bytes = this.keepTexts ? Buffer.from(r.text, "utf8") : undefined;
+      const doc: Doc = { i: r.seq, id: r.id, s: r.source, len: r.text.length, b: bytes ? bytes.length : Buffer.byteLength(r.text, "utf8"), short: res.short[i] };
+      if (bytes) {
         doc.at = this.textBytes;
         doc.n = bytes.length;
         this.textBytes += bytes.length;
@@ -271,15 +272,14 @@ export const minhashForm: KeyedForm<MinhashOptions> = {
       for (let x = 0; x < w.length; x += 2) uf.union(w[x], w[x + 1]);
     }
     // Only the members of clusters are looked at below (a document alone keeps itself and is not reported).
-    const size = new Int32Array(n);
-    for (let d = 0; d < n; d++) size[uf.find(d)]++;
+    const size = clusterSizes(uf);
     const member = new Uint8Array(n);
     for (let d = 0; d < n; d++) member[d] = size[uf.find(d)] > 1 ? 1 : 0;
     const { docs, unitOf } = await loadDocs(files, n, member);
     const list = o.sources ?? [];
     const length = Int32Array.from(docs, (d) => d?.len ?? 0);
     const rank = Int32Array.from(docs, (d) => (d === undefined || list.indexOf(d.s) < 0 ? list.length : list.indexOf(d.s)));
-    const kept = chooseKept(uf, o.keep, length, rank);
+    const kept = chooseKept(uf, o.keep, length, rank, size);
     const sigs = new Signatures(files, offset, k);
     const exact = o.confirm === "exact" ? exactJaccard(o, ctx.seed, files, docs, unitOf) : undefined;
     const a = new Uint32Array(k);

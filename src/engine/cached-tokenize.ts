@@ -50,7 +50,7 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
     // Lookup side: the cache entry of the file now being batched.
     let reading: { id: string; reader?: TokenStoreReader } | undefined;
     // Emitting side: the entry being written for the file now being emitted; none while every record so far came from the cache (`held`).
-    let writing: { id: string; writer: TokenStoreWriter; tmp: string; commit: () => Promise<void> } | undefined;
+    let writing: { writer: TokenStoreWriter; tmp: string; commit: () => Promise<void> } | undefined;
     let emitting: string | undefined;
     let held: { line: number; hash: bigint; ids: Uint32Array }[] = [];
     let heldIds = 0;
@@ -138,7 +138,7 @@ export function parallelTokenize(o: unknown, pool: RecordPool, cache: BuildCache
             } else {
               if (!writing) {
                 const out = cache.pending("tokens", keyOf(r), ".bin");
-                writing = { id, writer: new TokenStoreWriter(out.tmp), tmp: out.tmp, commit: out.commit };
+                writing = { writer: new TokenStoreWriter(out.tmp), tmp: out.tmp, commit: out.commit };
                 for (const h of held) writing.writer.add(h.line, h.hash, h.ids);
                 held = [];
                 heldIds = 0;

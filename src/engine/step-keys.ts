@@ -41,16 +41,21 @@ async function filesDigest(env: TaskEnv, paths: string[]): Promise<[string, stri
   return out;
 }
 
-/** Per task and keyed stage: the digest of what its applier read (the same for every unit). */
-const applierPrints = new WeakMap<TaskEnv, Map<number, Promise<unknown>>>();
+/**
+ * Per task: the digest of what keyed stage s's applier read (the same for every unit), and of its
+ * decision files about unit u, each made once (a group's key and its pieces' keys read the same files).
+ */
+const prints = new WeakMap<TaskEnv, { appliers: Map<number, Promise<unknown>>; units: Map<string, Promise<unknown>> }>();
 
 /** What keyed stage `s` decides about unit u as the unit's reader applies it: the decision files, and what the applier read. */
 async function decisionsPrint(env: TaskEnv, s: number, u: number, count: StageContext["count"]): Promise<unknown> {
-  let prints = applierPrints.get(env);
-  if (!prints) applierPrints.set(env, (prints = new Map()));
-  let applier = prints.get(s);
-  if (!applier) prints.set(s, (applier = applierOf(env, s, count).then((a) => filesDigest(env, a.read))));
-  return { applier: await applier, unit: await filesDigest(env, keyedDirs(env, s).decisionPaths(u)) };
+  let p = prints.get(env);
+  if (!p) prints.set(env, (p = { appliers: new Map(), units: new Map() }));
+  let applier = p.appliers.get(s);
+  if (!applier) p.appliers.set(s, (applier = applierOf(env, s, count).then((a) => filesDigest(env, a.read))));
+  let unit = p.units.get(`${s}/${u}`);
+  if (!unit) p.units.set(`${s}/${u}`, (unit = filesDigest(env, keyedDirs(env, s).decisionPaths(u))));
+  return { applier: await applier, unit: await unit };
 }
 
 /** The key of unit u's step in pass phase k (undefined when the unit file it reads has no fingerprint). */
