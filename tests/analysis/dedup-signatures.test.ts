@@ -89,6 +89,7 @@ describe("UnitSignatures", () => {
     expect(await s.find(record(1, "no such row"))).toBeUndefined();
     expect(await s.find(record(2, "depot gates"))).toBeUndefined();
     expect(await s.find(record(9, "coupler"))).toBeUndefined();
+    await s.close();
   });
 
   it("is absent when the unit has no files, or they do not agree", async () => {
