@@ -46,10 +46,10 @@ import { estimateJaccard } from "../dedup/signature.js";
 import { uint32s, type Grow } from "../lib/grow.js";
 import { loadHasher } from "../lib/hash.js";
 import { UnigramCounts } from "../overlap/divergence.js";
-import { HashMap64 } from "../overlap/hash-map64.js";
 import { heldOutPairs, nearDupDescription, ngramCounts, pairFigures, splitOrder, wordsDescription, type NearDupSettings, type OverlapFigures } from "../overlap/figures.js";
 import type { WordForm } from "../overlap/words.js";
-import { DISTINCT_BUDGET, DistinctKeys, HI, LO, mergeFind, sortUnique, spillOf } from "./distinct-keys.js";
+import { DISTINCT_BUDGET, DistinctKeys, mergeFind, sortUnique } from "./distinct-keys.js";
+import { bySpill, numberKeys } from "./held-keys.js";
 import { hashPool, keyPartition, TextBatch, type HashedBatch, type HashParams, type HashRequest } from "./overlap-hash.js";
 import { nearDupOf, overlapApplies, vocabSizeOf } from "./overlap-settings.js";
 import { givenSignature } from "./dedup-signatures.js";
@@ -359,48 +359,34 @@ interface PartitionCounts {
   pairs: { seen: number; exact: number; sharing: number; near_pairs: number; near_hits: number }[];
 }
 
-/** The map's keys as sorted 64-bit keys (pairs of halves in this machine's layout), one list per spill file of a DistinctKeys (one list when it spills not). */
-function sortedBySpill(map: HashMap64, spills: number): Uint32Array[] {
-  const lists = Array.from({ length: Math.max(1, spills) }, () => uint32s());
-  map.forEach((hi, lo) => {
-    const l = lists[spills > 0 ? spillOf(lo, spills) : 0];
-    if (LO === 0) l.push(lo), l.push(hi);
-    else l.push(hi), l.push(lo);
-  });
-  return lists.map((l) => {
-    const w = l.view().slice();
-    new BigUint64Array(w.buffer).sort();
-    return w;
-  });
-}
-
 /** N-gram and text figures of partition p into `counts` and `sharing`; returns train's distinct keys in p. */
 async function ngramPartition(files: KeyedFiles, p: number, s: Setup, tmpDir: string, counts: PartitionCounts, sharing: Grow<Uint32Array>[]): Promise<number> {
   const H = s.held.length;
   const held = await perUnit(files, (g) => files.read("ng-held", g, p));
   let n = 0;
   for (const raw of held) n += raw.byteLength / 16;
-  // Held-out keys of p: distinct keys, and per key which held-out splits have it as an n-gram or as a text.
+  // Held-out keys of p: distinct keys (numbered, held-keys.ts), and per key which held-out splits have it as an n-gram or as a text.
   const W = Math.max(1, Math.ceil(H / 32));
-  const map = new HashMap64(Math.max(16, n));
-  const keyOf = new Int32Array(n);
   const splitOf = new Int32Array(n);
   const isText = new Uint8Array(n);
   const docOf = new Float64Array(n);
-  let distinct = 0;
   let e = 0;
   held.forEach((raw, g) => {
     const w = words(raw);
     for (let x = 0; x < w.length; x += 4, e++) {
-      const k = map.setIfAbsent(w[x], w[x + 1], distinct);
-      if (k === distinct) distinct++;
-      keyOf[e] = k;
       const code = w[x + 2];
       isText[e] = code >= TEXT_FLAG ? 1 : 0;
       splitOf[e] = s.heldOf[g][code % TEXT_FLAG];
       docOf[e] = s.base[g][splitOf[e]] + w[x + 3];
     }
   });
+  const keys = numberKeys(n, (visit) => {
+    for (const raw of held) {
+      const w = words(raw);
+      for (let x = 0; x < w.length; x += 4) visit(w[x], w[x + 1]);
+    }
+  });
+  const { distinct, keyOf } = keys;
   held.length = 0;
   const gramMask = new Uint32Array(distinct * W);
   const textMask = new Uint32Array(distinct * W);
@@ -414,10 +400,10 @@ async function ngramPartition(files: KeyedFiles, p: number, s: Setup, tmpDir: st
   let trainKeys: number;
   try {
     for (let g = 0; g < files.units; g++) eachChunk(files.path("ng-train", g, p), sizes[g], 2, (w) => counter.add(w));
-    const wanted = sortedBySpill(map, counter.spillFiles);
+    const wanted = bySpill(keys, counter.spillFiles);
     trainKeys = counter.count((sorted, n, spill) => {
       const want = wanted[Math.max(0, spill)];
-      mergeFind(sorted, n, want, (j) => (inTrain[map.get(want[2 * j + HI], want[2 * j + LO])] = 1));
+      mergeFind(sorted, n, want.sorted, (j) => (inTrain[want.numberOf[j]] = 1));
     });
   } finally {
     counter.close();
