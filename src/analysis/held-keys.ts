@@ -21,31 +21,38 @@ export interface HeldKeys {
   numberOf: Int32Array;
 }
 
-/** Numbers the keys of n entries, read as `each(visit)` calls visit(hi, lo) for every entry in order. */
-export function numberKeys(n: number, each: (visit: (hi: number, lo: number) => void) => void): HeldKeys {
+/** Numbers the keys of the entries of `runs`: `stride` uint32s an entry, the key's high half first, then its low half. */
+export function numberKeys(runs: Uint32Array[], stride: number): HeldKeys {
+  let n = 0;
+  for (const w of runs) n += Math.floor(w.length / stride);
   const start = new Float64Array(PARTS + 1);
-  each((hi) => start[(hi >>> 24) + 1]++);
+  for (const w of runs) for (let x = 0; x + stride <= w.length; x += stride) start[(w[x] >>> 24) + 1]++;
   for (let b = 0; b < PARTS; b++) start[b + 1] += start[b];
   const at = start.slice(0, PARTS);
   const khi = new Uint32Array(n);
   const klo = new Uint32Array(n);
   const entry = new Uint32Array(n);
   let e = 0;
-  each((hi, lo) => {
-    const i = at[hi >>> 24]++;
-    khi[i] = hi;
-    klo[i] = lo;
-    entry[i] = e++;
-  });
+  for (const w of runs)
+    for (let x = 0; x + stride <= w.length; x += stride, e++) {
+      const i = at[w[x] >>> 24]++;
+      khi[i] = w[x];
+      klo[i] = w[x + 1];
+      entry[i] = e;
+    }
   const keyOf = new Int32Array(n);
   const sorted = new Uint32Array(2 * n);
   const numberOf = new Int32Array(n);
   let distinct = 0;
+  let largest = 0;
+  for (let b = 0; b < PARTS; b++) largest = Math.max(largest, start[b + 1] - start[b]);
+  // One table for every part in turn, emptied between them: no table of its own to allocate per part.
+  const map = new HashMap64(Math.max(16, largest));
   for (let b = 0; b < PARTS; b++) {
     const from = start[b];
     const to = start[b + 1];
     if (from === to) continue;
-    const map = new HashMap64(to - from);
+    map.clear();
     let local = 0;
     for (let i = from; i < to; i++) {
       const k = map.setIfAbsent(khi[i], klo[i], local);

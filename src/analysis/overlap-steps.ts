@@ -46,6 +46,7 @@ import { estimateJaccard } from "../dedup/signature.js";
 import { uint32s, type Grow } from "../lib/grow.js";
 import { loadHasher } from "../lib/hash.js";
 import { UnigramCounts } from "../overlap/divergence.js";
+import { HashMap64 } from "../overlap/hash-map64.js";
 import { heldOutPairs, nearDupDescription, ngramCounts, pairFigures, splitOrder, wordsDescription, type NearDupSettings, type OverlapFigures } from "../overlap/figures.js";
 import type { WordForm } from "../overlap/words.js";
 import { DISTINCT_BUDGET, DistinctKeys, mergeFind, sortUnique } from "./distinct-keys.js";
@@ -69,7 +70,6 @@ const BATCH_CHARS = 1 << 22;
 export const overlapLimits = { partFlush: 1 << 20, trainFlush: 1 << 23, readWords: 1 << 21, rowCache: 4096, distinctBudget: DISTINCT_BUDGET };
 /** Marks a held-out text fingerprint among its n-gram keys. */
 const TEXT_FLAG = 0x80000000;
-const TWO32 = 4294967296;
 
 /** The words' Unicode form, as the one-pass analyzer and `decontaminate` use. */
 const FORM: WordForm = "NFKC";
@@ -380,12 +380,7 @@ async function ngramPartition(files: KeyedFiles, p: number, s: Setup, tmpDir: st
       docOf[e] = s.base[g][splitOf[e]] + w[x + 3];
     }
   });
-  const keys = numberKeys(n, (visit) => {
-    for (const raw of held) {
-      const w = words(raw);
-      for (let x = 0; x < w.length; x += 4) visit(w[x], w[x + 1]);
-    }
-  });
+  const keys = numberKeys(held.map(words), 4);
   const { distinct, keyOf } = keys;
   held.length = 0;
   const gramMask = new Uint32Array(distinct * W);
@@ -449,8 +444,14 @@ async function nearPartition(files: KeyedFiles, p: number, s: Setup, nd: NearDup
   const eRow = uint32s();
   const eSplit = uint32s();
   const eDoc: number[] = [];
-  const buckets = new Map<number, number[]>();
   const bandsHeld = await perUnit(files, (g) => files.read("bands-held", g, p));
+  let n = 0;
+  for (const raw of bandsHeld) n += raw.byteLength / 20;
+  // Buckets (band, key), numbered in the order first met, each with its entries in order: a table of
+  // numbers and two arrays (a Map keyed by band · 2³² + key boxed every key as a heap number).
+  const bucketIds = new HashMap64(Math.max(16, n));
+  const bucketOf = new Int32Array(n);
+  const bandOf: number[] = [];
   for (let g = 0; g < files.units; g++) {
     const w = words(bandsHeld[g]);
     for (let x = 0; x < w.length; x += 5) {
@@ -460,14 +461,20 @@ async function nearPartition(files: KeyedFiles, p: number, s: Setup, nd: NearDup
       eRow.push(w[x + 2]);
       eSplit.push(h);
       eDoc.push(s.base[g][h] + w[x + 4]);
-      // Band number above the key's 32 bits: the same key in two bands is two buckets (exact in a double).
-      const b = w[x + 1] * TWO32 + w[x];
-      const list = buckets.get(b);
-      if (list) list.push(e);
-      else buckets.set(b, [e]);
+      // The band as the high half: the same key in two bands is two buckets.
+      const id = bucketIds.setIfAbsent(w[x + 1], w[x], bandOf.length);
+      if (id === bandOf.length) bandOf.push(w[x + 1]);
+      bucketOf[e] = id;
     }
   }
-  if (buckets.size === 0) return;
+  const B = bandOf.length;
+  if (B === 0) return;
+  const start = new Int32Array(B + 1);
+  for (let e = 0; e < n; e++) start[bucketOf[e] + 1]++;
+  for (let b = 0; b < B; b++) start[b + 1] += start[b];
+  const members = new Int32Array(n);
+  const fill = start.slice(0, B);
+  for (let e = 0; e < n; e++) members[fill[bucketOf[e]]++] = e;
   const rows = new SignatureRows(files, rowWords);
   const cache = new Map<number, Uint32Array>();
   const heldRow = (e: number) => {
@@ -493,10 +500,11 @@ async function nearPartition(files: KeyedFiles, p: number, s: Setup, nd: NearDup
     for (let g = 0; g < files.units; g++)
       eachChunk(files.path("bands-train", g, p), trainSizes[g], 3, (w) => {
         for (let i = 0; i < w.length; i += 3) {
-          const list = buckets.get(w[i + 1] * TWO32 + w[i]);
-          if (!list) continue;
+          const id = bucketIds.get(w[i + 1], w[i]);
+          if (id < 0) continue;
           rows.read(g, w[i + 2], x);
-          for (const e of list) {
+          for (let m = start[id]; m < start[id + 1]; m++) {
+            const e = members[m];
             const q = s.pairAt(-1, eSplit.get(e));
             if (q >= 0 && confirmed(x, heldRow(e), w[i + 1])) count(q, e);
           }
@@ -504,11 +512,12 @@ async function nearPartition(files: KeyedFiles, p: number, s: Setup, nd: NearDup
       });
     // Held-out against held-out: the earlier split in split order is the reference. A bucket's
     // members are sorted by split first, so the work is that of the pairs across splits only.
-    for (const [b, list] of buckets) {
+    for (let b = 0; b < B; b++) {
+      const list = members.subarray(start[b], start[b + 1]);
       if (list.length < 2) continue;
       const first = eSplit.get(list[0]);
       if (list.every((e) => eSplit.get(e) === first)) continue;
-      const t = Math.floor(b / TWO32);
+      const t = bandOf[b];
       const bySplit = new Map<number, number[]>();
       for (const e of list) {
         const h = eSplit.get(e);

@@ -64,6 +64,12 @@ export class HashMap64 {
     return value;
   }
 
+  /** Empties the table, keeping its room (one table serves many small sets in turn). */
+  clear(): void {
+    this.used.fill(0);
+    this.size = 0;
+  }
+
   /** Calls `each(hi, lo, value)` for every key, in slot order. */
   forEach(each: (hi: number, lo: number, value: number) => void): void {
     for (let i = 0; i < this.used.length; i++) if (this.used[i]) each(this.hi[i], this.lo[i], this.val[i]);

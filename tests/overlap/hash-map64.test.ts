@@ -33,6 +33,20 @@ describe("HashMap64", () => {
     );
   });
 
+  it("holds nothing after clear, and fills again as a new table would", () => {
+    const m = new HashMap64(4);
+    for (let i = 0; i < 100; i++) m.setIfAbsent(i, i * 7, i);
+    m.clear();
+    expect(m.size).toBe(0);
+    expect(m.get(3, 21)).toBe(-1);
+    let n = 0;
+    m.forEach(() => n++);
+    expect(n).toBe(0);
+    expect(m.setIfAbsent(3, 21, 40)).toBe(40);
+    expect(m.setIfAbsent(3, 21, 41)).toBe(40);
+    expect(m.size).toBe(1);
+  });
+
   it("treats keys as unsigned: -1 and 0xffffffff are the same half", () => {
     const m = new HashMap64();
     m.setIfAbsent(-1, -2, 5);
