@@ -3,7 +3,7 @@
 import { brotliDecompressSync, gunzipSync } from "node:zlib";
 import { stat } from "node:fs/promises";
 import { decompress as zstdDecompress } from "fzstd";
-import { asyncBufferFromFile, parquetMetadataAsync, parquetReadObjects, type Compressors, type FileMetaData } from "hyparquet";
+import type { Compressors, FileMetaData } from "hyparquet";
 import { SiftpackError, describeSystemError } from "../errors.js";
 import type { ReaderOptions } from "./reader.js";
 import { truncatedRow, type Row } from "./row.js";
@@ -94,6 +94,8 @@ export async function* readParquet(file: string, _options: ReaderOptions = {}): 
     yield { line: 0, error: "empty file" };
     return;
   }
+  // Loaded here, not with the module: builds without Parquet inputs do not load the package.
+  const { asyncBufferFromFile, parquetMetadataAsync, parquetReadObjects } = await import("hyparquet");
   const buffer = await asyncBufferFromFile(file);
   let metadata: FileMetaData;
   try {

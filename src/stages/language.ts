@@ -4,14 +4,15 @@
 // guess, which is what `min_confidence` compares against. It decides from the first
 // `sample_bytes` bytes of UTF-8; short texts (a few words) are often misidentified, which is
 // why records can be dropped for low confidence rather than trusted.
-import * as cld3 from "cld3-asm";
 import type { CldFactory } from "cld3-asm";
+// The labels alone (a small file of the package): the identifier itself is loaded when a build first needs it (loadIdentifier).
+import { LanguageCode } from "cld3-asm/dist/cjs/languageCode.js";
 import { defineStage } from "./stage.js";
 import { field, num, obj, type Infer, type Issue, type Path, type Schema } from "../pipeline/schema.js";
 import { closest } from "../lib/did-you-mean.js";
 
 /** CLD3's labels (ISO 639-1 where one exists, e.g. "en", "de"; a few others like "fil", "haw", "zh-Latn"), read from the package. */
-export const LANGUAGE_CODES: readonly string[] = Object.values((cld3 as unknown as { LanguageCode: Record<string, string> }).LanguageCode).filter(
+export const LANGUAGE_CODES: readonly string[] = Object.values(LanguageCode).filter(
   (c) => c !== "und",
 );
 
@@ -56,9 +57,9 @@ export type LanguageOptions = Infer<typeof languageOptions>;
 type Identifier = ReturnType<CldFactory["create"]>;
 
 let factory: Promise<CldFactory> | undefined;
-/** Compiles CLD3's WebAssembly once per process (per worker thread). */
+/** Compiles CLD3's WebAssembly once per process (per worker thread); the package is loaded only then, so builds without the stage do not load it. */
 export function loadIdentifier(): Promise<CldFactory> {
-  factory ??= cld3.loadModule();
+  factory ??= import("cld3-asm").then((cld3) => cld3.loadModule());
   return factory;
 }
 
