@@ -17,15 +17,6 @@ export function bandThreshold(bands: number, rows: number): number {
 
 const STEPS = 400;
 
-/** ∫ f over [a, b] by Simpson's rule on STEPS intervals (the curve is smooth; 400 steps is far below 1e-6 error). */
-function integrate(f: (s: number) => number, a: number, b: number): number {
-  if (b <= a) return 0;
-  const h = (b - a) / STEPS;
-  let sum = f(a) + f(b);
-  for (let i = 1; i < STEPS; i++) sum += (i % 2 === 1 ? 4 : 2) * f(a + i * h);
-  return (sum * h) / 3;
-}
-
 export interface BandChoice {
   bands: number;
   rows: number;
@@ -53,11 +44,17 @@ export function chooseBands(threshold: number, k: number, missWeight: number): B
   let bestFloor: BandChoice | undefined;
   let bestFloorCost = Infinity;
   const sHigh = Math.min(1, threshold + RECALL_MARGIN);
+  // FP and FN by Simpson's rule on STEPS intervals (the curve is smooth; 400 steps is far below 1e-6
+  // error), with s^r at its points computed once per r instead of once per (b, r).
+  const below = simpsonPoints(0, threshold);
+  const above = simpsonPoints(threshold, 1);
+  const powers = (xs: Float64Array | undefined) => (xs ? Array.from({ length: k + 1 }, (_, r) => xs.map((x) => Math.pow(x, r))) : undefined);
+  const belowR = powers(below);
+  const aboveR = powers(above);
   for (let b = 1; b <= k; b++) {
     for (let r = 1; b * r <= k; r++) {
-      const P = (s: number) => candidateProbability(s, b, r);
-      const fp = integrate(P, 0, threshold);
-      const fn = integrate((s) => 1 - P(s), threshold, 1);
+      const fp = belowR ? simpson(belowR[r], (sr) => 1 - Math.pow(1 - sr, b), 0, threshold) : 0;
+      const fn = aboveR ? simpson(aboveR[r], (sr) => 1 - (1 - Math.pow(1 - sr, b)), threshold, 1) : 0;
       const cost = (1 - missWeight) * fp + missWeight * fn;
       const choice = { bands: b, rows: r, falsePositiveArea: fp, falseNegativeArea: fn };
       // Strict "<": ties keep the smaller b, then the smaller r (fewer buckets to store).
@@ -65,13 +62,32 @@ export function chooseBands(threshold: number, k: number, missWeight: number): B
         bestCost = cost;
         best = choice;
       }
-      if (P(sHigh) >= RECALL_FLOOR && cost < bestFloorCost) {
+      if (candidateProbability(sHigh, b, r) >= RECALL_FLOOR && cost < bestFloorCost) {
         bestFloorCost = cost;
         bestFloor = choice;
       }
     }
   }
   return bestFloor ?? best!;
+}
+
+/** The points of Simpson's rule on STEPS intervals of [a, b] (a and b themselves at the ends), or undefined when [a, b] is empty. */
+function simpsonPoints(a: number, b: number): Float64Array | undefined {
+  if (b <= a) return undefined;
+  const h = (b - a) / STEPS;
+  const xs = new Float64Array(STEPS + 1);
+  for (let i = 1; i < STEPS; i++) xs[i] = a + i * h;
+  xs[0] = a;
+  xs[STEPS] = b;
+  return xs;
+}
+
+/** ∫ f over [a, b] by Simpson's rule, f(x) = g(x^r), with x^r given at simpsonPoints(a, b). */
+function simpson(pr: Float64Array, g: (sr: number) => number, a: number, b: number): number {
+  const h = (b - a) / STEPS;
+  let sum = g(pr[0]) + g(pr[STEPS]);
+  for (let i = 1; i < STEPS; i++) sum += (i % 2 === 1 ? 4 : 2) * g(pr[i]);
+  return (sum * h) / 3;
 }
 
 /** Bands × rows for the options: explicit `bands` (rows = ⌊k / bands⌋) or the weighted optimum. */

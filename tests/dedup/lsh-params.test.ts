@@ -71,6 +71,35 @@ describe("the weighted optimum", () => {
     }
   });
 
+  it("gives exactly what evaluating P at every Simpson point for every (b, r) gives: the same choice and the same areas, to the last bit", () => {
+    // The search as first written: Simpson's rule on 400 intervals, P evaluated afresh for every (b, r).
+    const integrate = (f: (s: number) => number, a: number, b: number) => {
+      if (b <= a) return 0;
+      const h = (b - a) / 400;
+      let sum = f(a) + f(b);
+      for (let i = 1; i < 400; i++) sum += (i % 2 === 1 ? 4 : 2) * f(a + i * h);
+      return (sum * h) / 3;
+    };
+    const direct = (t: number, k: number, w: number) => {
+      let best: { cost: number; c: unknown } | undefined;
+      let floor: { cost: number; c: unknown } | undefined;
+      for (let b = 1; b <= k; b++)
+        for (let r = 1; b * r <= k; r++) {
+          const P = (s: number) => candidateProbability(s, b, r);
+          const fp = integrate(P, 0, t);
+          const fn = integrate((s) => 1 - P(s), t, 1);
+          const cost = (1 - w) * fp + w * fn;
+          const c = { bands: b, rows: r, falsePositiveArea: fp, falseNegativeArea: fn };
+          if (!best || cost < best.cost) best = { cost, c };
+          if (P(Math.min(1, t + 0.05)) >= 0.95 && (!floor || cost < floor.cost)) floor = { cost, c };
+        }
+      return (floor ?? best)!.c;
+    };
+    for (const t of [0.3, 0.5, 0.7, 0.75, 0.8, 0.85, 0.9, 0.95, 0.99])
+      for (const k of [16, 64, 128])
+        for (const w of [0.5, 0.9]) expect(chooseBands(t, k, w), `t ${t}, k ${k}, w ${w}`).toEqual(direct(t, k, w));
+  });
+
   it("without the floor and with equal weights is 9 × 13 at threshold 0.8, k = 128", () => {
     let best = { cost: Infinity, b: 0, r: 0 };
     const area = (f: (s: number) => number, a: number, b: number) => {
