@@ -4,6 +4,8 @@ import { defineConfig } from "vitest/config";
 export default defineConfig({
   test: {
     include: ["tests/**/*.test.ts"],
+    // One temporary folder per run, removed at its end (tests/global-setup.ts).
+    globalSetup: ["tests/global-setup.ts"],
     testTimeout: 120_000,
     hookTimeout: 120_000,
     pool: "forks",
