@@ -46,11 +46,9 @@ export function chooseBands(threshold: number, k: number, missWeight: number): B
   const sHigh = Math.min(1, threshold + RECALL_MARGIN);
   // FP and FN by Simpson's rule on STEPS intervals (the curve is smooth; 400 steps is far below 1e-6
   // error), with s^r at its points computed once per r instead of once per (b, r).
-  const below = simpsonPoints(0, threshold);
-  const above = simpsonPoints(threshold, 1);
   const powers = (xs: Float64Array | undefined) => (xs ? Array.from({ length: k + 1 }, (_, r) => xs.map((x) => Math.pow(x, r))) : undefined);
-  const belowR = powers(below);
-  const aboveR = powers(above);
+  const belowR = powers(simpsonPoints(0, threshold));
+  const aboveR = powers(simpsonPoints(threshold, 1));
   for (let b = 1; b <= k; b++) {
     for (let r = 1; b * r <= k; r++) {
       const fp = belowR ? simpson(belowR[r], (sr) => 1 - Math.pow(1 - sr, b), 0, threshold) : 0;

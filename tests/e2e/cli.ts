@@ -1,4 +1,5 @@
 // Helpers for end-to-end tests: run the built CLI as a user would, in temp directories.
+import { afterAll, beforeAll, expect } from "vitest";
 import { spawnSync } from "node:child_process";
 import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, statSync, writeFileSync } from "node:fs";
 import { parse as parseYaml, stringify as stringifyYaml } from "yaml";
@@ -124,4 +125,22 @@ export function ledgerLines(dir: string): any[] {
     .split("\n")
     .filter(Boolean)
     .map((l) => JSON.parse(l));
+}
+
+/**
+ * A tmpfs of `size` (mount's size option, e.g. "64m") at `mnt` for the tests of the calling
+ * describe: probed now (mounted and unmounted; mounting needs root), mounted before its tests run
+ * and unmounted after, so a filtered run that skips them (and their hooks) leaves no mount behind.
+ * Returns whether mounting works here.
+ */
+export function tmpfsForSuite(mnt: string, size: string): boolean {
+  const mount = () => spawnSync("mount", ["-t", "tmpfs", "-o", `size=${size}`, "tmpfs", mnt]).status === 0;
+  const mounted = mount() && spawnSync("umount", [mnt]).status === 0;
+  beforeAll(() => {
+    if (mounted) expect(mount()).toBe(true);
+  });
+  afterAll(() => {
+    if (mounted) spawnSync("umount", [mnt]);
+  });
+  return mounted;
 }

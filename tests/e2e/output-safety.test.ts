@@ -1,12 +1,12 @@
 // Which folders a build may replace, one run per output at a time, and faults of the machine
 // (a read-only folder, a second run, an alias bomb) told in one line with the previous build intact.
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { spawn, spawnSync } from "node:child_process";
 import { existsSync, mkdirSync, readdirSync, readFileSync, writeFileSync } from "node:fs";
 import { hostname } from "node:os";
 import { join } from "node:path";
 import { setTimeout as sleep } from "node:timers/promises";
-import { ROOT, demoCopy, outputFiles, siftpack, tempDir } from "./cli.js";
+import { ROOT, demoCopy, outputFiles, siftpack, tempDir, tmpfsForSuite } from "./cli.js";
 
 /** A small invented corpus of depot shift notes with its pipeline (p.yaml); `outDir` as written in the file. */
 function project(outDir = "build/notes"): string {
@@ -156,13 +156,8 @@ describe("one run per output", () => {
 describe("a read-only folder", () => {
   // Tests run as root, where chmod stops no write: a read-only mount does. A read-only bind of the
   // folder onto itself (a remount would be refused while a build holds files open), popped to undo.
-  // Mounted only when its tests run (a filtered run skips the hooks), after a probe that mounting works here.
   const mnt = tempDir("readonly");
-  const mount = () => spawnSync("mount", ["-t", "tmpfs", "-o", "size=64m", "tmpfs", mnt]).status === 0;
-  const mounted = mount() && spawnSync("umount", [mnt]).status === 0;
-  beforeAll(() => {
-    if (mounted) expect(mount()).toBe(true);
-  });
+  const mounted = tmpfsForSuite(mnt, "64m");
   const readOnly = () => {
     expect(spawnSync("mount", ["--bind", mnt, mnt]).status).toBe(0);
     if (spawnSync("mount", ["-o", "remount,bind,ro", mnt]).status !== 0) {
@@ -171,9 +166,6 @@ describe("a read-only folder", () => {
     }
   };
   const writable = () => expect(spawnSync("umount", [mnt]).status).toBe(0);
-  afterAll(() => {
-    if (mounted) spawnSync("umount", [mnt]);
-  });
 
   it.runIf(mounted)("from the start: one line naming the lock file, the previous build intact", () => {
     const out = join(mnt, "before");

@@ -1,9 +1,8 @@
 // Rebuilding in CI: identical bytes, verify --inputs, the lock check, and a full disk.
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { readFileSync, writeFileSync, existsSync } from "node:fs";
-import { spawnSync } from "node:child_process";
 import { join } from "node:path";
-import { blocksOf, demoCopy, outputFiles, siftpack, tempDir } from "./cli.js";
+import { blocksOf, demoCopy, outputFiles, siftpack, tempDir, tmpfsForSuite } from "./cli.js";
 
 describe("identical bytes", () => {
   it("across reruns, worker counts and the order files were created in", () => {
@@ -65,16 +64,7 @@ describe("a full disk", () => {
   siftpack(["run", "pipelines/demo.yaml", "--out", join(probe, "demo"), "--keep-work"]);
   const kib = 4 * (blocksOf(probe) + 16);
   const mnt = tempDir("full");
-  // Mounted only when its test runs (a filtered run skips the hooks, and a mount made here would
-  // stay behind), after a probe that mounting works here.
-  const mount = () => spawnSync("mount", ["-t", "tmpfs", "-o", `size=${kib}k`, "tmpfs", mnt]).status === 0;
-  const mounted = mount() && spawnSync("umount", [mnt]).status === 0;
-  beforeAll(() => {
-    if (mounted) expect(mount()).toBe(true);
-  });
-  afterAll(() => {
-    if (mounted) spawnSync("umount", [mnt]);
-  });
+  const mounted = tmpfsForSuite(mnt, `${kib}k`);
 
   // Needs root to mount a small tmpfs (true on the developers' machines and in CI here).
   it.runIf(mounted)("fails with a clear message and leaves the previous build intact", () => {
